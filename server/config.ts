@@ -1,0 +1,74 @@
+/**
+ * The one typed configuration of the server, read from the environment (and `.env`) once.
+ * Fails fast with a readable message when a value is malformed.
+ */
+import path from 'node:path';
+import { fileURLToPath } from 'node:url';
+import dotenv from 'dotenv';
+import { z } from 'zod';
+
+export const PROJECT_ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
+
+dotenv.config({ path: path.join(PROJECT_ROOT, '.env'), quiet: true });
+
+const bool = z
+  .enum(['0', '1', 'true', 'false', ''])
+  .default('0')
+  .transform((v) => v === '1' || v === 'true');
+
+const EnvSchema = z.object({
+  NODE_ENV: z.enum(['development', 'production', 'test']).default('development'),
+  HOST: z.string().default('127.0.0.1'),
+  PORT: z.coerce.number().int().min(0).max(65535).default(3000),
+  PUBLIC_URL: z.string().url().optional(),
+  SESSION_SECRET: z.string().min(16, 'SESSION_SECRET must be at least 16 characters').default('dev-only-session-secret-change-me'),
+  SESSION_MAX_AGE_H: z.coerce.number().positive().default(12),
+  DB_HOST: z.string().default('127.0.0.1'),
+  DB_PORT: z.coerce.number().int().min(1).max(65535).default(3307),
+  DB_NAME: z.string().regex(/^[A-Za-z0-9_]+$/).default('rimehold'),
+  DB_USER: z.string().default('rimehold'),
+  DB_PASSWORD: z.string().default('rimehold-dev-password'),
+  DB_POOL_MAX: z.coerce.number().int().min(1).default(10),
+  /** 1: use an existing MariaDB given by DB_*; never start or install one. */
+  DB_EXTERNAL: bool,
+  DB_BUFFER_POOL_MIB: z.coerce.number().int().min(64).default(1024),
+  DB_REDO_LOG_MIB: z.coerce.number().int().min(16).default(512),
+  DATA_DIR: z.string().default(path.join(PROJECT_ROOT, '.data')),
+  MQTT_PORT: z.coerce.number().int().min(0).max(65535).default(1883),
+  MQTT_HOST: z.string().default('127.0.0.1'),
+  /** When set, the ingest connects to this external broker and no broker is embedded. */
+  MQTT_URL: z.string().optional(),
+  MQTT_INGEST_USER: z.string().default('rimehold-ingest'),
+  MQTT_INGEST_PASSWORD: z.string().default('dev-only-ingest-password'),
+  /** Messages queued for one offline persistent session before the oldest are dropped. */
+  MQTT_SESSION_QUEUE_LIMIT: z.coerce.number().int().min(100).default(200_000),
+  SMTP_HOST: z.string().default('127.0.0.1'),
+  SMTP_PORT: z.coerce.number().int().min(0).max(65535).default(2525),
+  SMTP_USER: z.string().optional(),
+  SMTP_PASSWORD: z.string().optional(),
+  SMTP_SECURE: bool,
+  /** 1: start the local fake SMTP server and the dev mailbox page (development and tests). */
+  SMTP_FAKE: bool,
+  MAIL_FROM: z.string().default('Rimehold <no-reply@rimehold.example.com>'),
+  LOG_LEVEL: z.enum(['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent']).default('info'),
+  LOGIN_RATE_LIMIT: z.coerce.number().int().min(1).default(10),
+  RETENTION_RAW_DAYS: z.coerce.number().int().min(1).default(90),
+  RETENTION_ROLLUP_DAYS: z.coerce.number().int().min(1).default(3 * 365),
+  DEMO_MODE: bool,
+});
+
+export type Config = z.infer<typeof EnvSchema> & { publicUrl: string };
+
+/** Parses an environment into a Config; throws one error listing every bad variable. */
+export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
+  const parsed = EnvSchema.safeParse(env);
+  if (!parsed.success) {
+    const lines = parsed.error.issues.map((i) => `  ${i.path.join('.')}: ${i.message}`);
+    throw new Error(`Invalid configuration:\n${lines.join('\n')}`);
+  }
+  const c = parsed.data;
+  if (c.NODE_ENV === 'production' && c.SESSION_SECRET.startsWith('dev-only')) {
+    throw new Error('Invalid configuration: set SESSION_SECRET in production');
+  }
+  return { ...c, publicUrl: c.PUBLIC_URL ?? `http://${c.HOST === '0.0.0.0' ? '127.0.0.1' : c.HOST}:${c.PORT}` };
+}

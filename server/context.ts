@@ -1,0 +1,28 @@
+/** What every feature's routes and services are given: config, logger, database, mail, the event bus. */
+import type { Sequelize } from 'sequelize';
+import type { Config } from './config';
+import type { Logger } from './logger';
+import type { Models } from './models';
+import type { Mailer } from './mail/mailer';
+import type { FakeSmtp } from './mail/fakeSmtp';
+import type { EventBus } from './events/bus';
+
+export interface BrokerStatus {
+  /** 'up' when the embedded broker listens (or the external one is connected), 'down' otherwise. */
+  state(): 'up' | 'down';
+  mode: 'embedded' | 'external' | 'none';
+}
+
+export interface AppContext {
+  config: Config;
+  logger: Logger;
+  sequelize: Sequelize;
+  models: Models;
+  mailer: Mailer;
+  /** The fake SMTP server's captured mail (SMTP_FAKE=1 only). */
+  mailbox: FakeSmtp | null;
+  bus: EventBus;
+  broker: BrokerStatus;
+  /** Publishes an MQTT message through the server's own client (settings, demo faults). */
+  publish?: (topic: string, payload: string, opts?: { qos?: 0 | 1; retain?: boolean }) => Promise<void>;
+}

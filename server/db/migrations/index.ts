@@ -1,0 +1,4 @@
+/** Every migration, in order. Add new files here (a static list works under tsx, Vitest and compiled JS alike). */
+import * as m0001 from './0001-core';
+
+export const MIGRATIONS = [{ name: '0001-core', ...m0001 }];

@@ -1,0 +1,22 @@
+/** The typed in-process event bus between the MQTT side, services and the WebSocket hub. */
+import { EventEmitter } from 'node:events';
+import type { ReadingDto } from '../../shared/schemas/live';
+import type { SettingsChangeDto } from '../../shared/schemas/settings';
+
+export interface EventBusMap {
+  /** A reading was committed to the database. */
+  reading: [{ boxId: number; customerId: number; reading: ReadingDto }];
+  /** A controller went online or offline. */
+  controller: [{ boxId: number; customerId: number; serial: string; online: boolean; at: string }];
+  /** A settings change changed state (pending, applied, rejected, timed out). */
+  settings: [{ boxId: number; customerId: number; change: SettingsChangeDto }];
+  /** A user signed out or was disabled: close their live sockets. */
+  userSessionEnded: [{ userId: number }];
+}
+
+export class EventBus extends EventEmitter<EventBusMap> {
+  constructor() {
+    super();
+    this.setMaxListeners(50);
+  }
+}

@@ -1,0 +1,37 @@
+import { z } from 'zod';
+import { ROLES, UNIT_SYSTEMS } from '../domain';
+
+const base = {
+  email: z.string().trim().toLowerCase().email('Enter an e-mail address').max(190),
+  name: z.string().trim().min(1, 'Enter a name').max(120),
+  role: z.enum(ROLES),
+  customerId: z.number().int().positive().nullable().default(null),
+  unitSystem: z.enum(UNIT_SYSTEMS).default('imperial'),
+};
+
+const managerNeedsCustomer = (u: { role: string; customerId: number | null }) => u.role !== 'manager' || u.customerId !== null;
+const msg = { message: 'A store manager must belong to one customer', path: ['customerId'] };
+
+/** Admin creates a user; an invitation e-mail with a set-password link goes out. */
+export const UserCreateBody = z.object(base).refine(managerNeedsCustomer, msg);
+export type UserCreateBody = z.infer<typeof UserCreateBody>;
+
+export const UserUpdateBody = z
+  .object({ ...base, disabled: z.boolean().default(false) })
+  .partial()
+  .refine((u) => u.role === undefined || u.role !== 'manager' || (u.customerId ?? null) !== null, msg);
+export type UserUpdateBody = z.infer<typeof UserUpdateBody>;
+
+export interface UserDto {
+  id: number;
+  email: string;
+  name: string;
+  role: (typeof ROLES)[number];
+  customerId: number | null;
+  unitSystem: (typeof UNIT_SYSTEMS)[number];
+  disabled: boolean;
+  invitedAt: string | null;
+  passwordSet: boolean;
+  lastLoginAt: string | null;
+  createdAt: string;
+}
