@@ -1,0 +1,4 @@
+// Field calculations: unit conversions, gauge/absolute pressure, superheat, subcooling, valve position.
+export * from './units';
+export * from './pressure';
+export * from './superheat';

@@ -1,0 +1,252 @@
+import { describe, expect, it } from 'vitest';
+import {
+  COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K,
+  SEA_LEVEL_PRESSURE_KPA,
+  absoluteToGaugeKPa,
+  atmosphericPressureKPa,
+  barToKPa,
+  cToF,
+  cToK,
+  deltaFToDeltaK,
+  deltaKToDeltaF,
+  fToC,
+  formatPressureGauge,
+  formatTemperature,
+  formatTemperatureDelta,
+  gaugeToAbsoluteKPa,
+  judgeSuperheat,
+  kPaToBar,
+  kPaToPsi,
+  kToC,
+  parsePressureGaugeKPaG,
+  parseTemperatureC,
+  parseTemperatureDeltaK,
+  psiToKPa,
+  subcoolingK,
+  superheatByPressureK,
+  superheatByThermistorsK,
+  valvePercent,
+} from '../../shared/field/index';
+import { RefrigerantRangeError, saturationTemperature } from '../../shared/refrigerants/index';
+
+const FT = 0.3048; // m per ft, exact by definition (NIST SP 811)
+
+describe('units', () => {
+  it('converts absolute temperatures', () => {
+    // Definitions of the Celsius, Fahrenheit and kelvin scales (NIST SP 811): 0 °C = 32 °F = 273.15 K, 100 °C = 212 °F.
+    expect(cToF(0)).toBe(32);
+    expect(cToF(100)).toBeCloseTo(212, 12);
+    expect(fToC(-40)).toBeCloseTo(-40, 12);
+    expect(cToK(0)).toBe(273.15);
+    expect(kToC(273.15)).toBe(0);
+    // FDA Food Code §3-501.16(A)(2): 41 °F = 5 °C.
+    expect(fToC(41)).toBeCloseTo(5, 12);
+  });
+
+  it('converts temperature differences without the offset', () => {
+    // common practice: a 5 °F superheat difference is 2.78 K (1 K = 1.8 °F, NIST SP 811).
+    expect(deltaFToDeltaK(5)).toBeCloseTo(2.78, 2);
+    expect(deltaKToDeltaF(10)).toBeCloseTo(18, 12);
+    expect(deltaKToDeltaF(deltaFToDeltaK(7))).toBeCloseTo(7, 12);
+  });
+
+  it('converts pressures', () => {
+    // NIST SP 811: 1 psi = 6.894757 kPa; 1 bar = 100 kPa; standard atmosphere 101.325 kPa = 14.696 psi.
+    expect(psiToKPa(1)).toBeCloseTo(6.894757, 6);
+    expect(barToKPa(1)).toBe(100);
+    expect(kPaToBar(250)).toBe(2.5);
+    expect(kPaToPsi(101.325)).toBeCloseTo(14.696, 3);
+  });
+
+  it('formats readings in the user unit system', () => {
+    // 0 °C = 32 °F (NIST SP 811); 5 °F difference = 2.78 K (common practice); 20 psi = 137.9 kPa = 1.379 bar (NIST SP 811).
+    expect(formatTemperature(0, 'imperial')).toBe('32.0 °F');
+    expect(formatTemperature(3.33, 'metric-bar')).toBe('3.3 °C');
+    expect(formatTemperature(-0.01, 'metric-kpa')).toBe('0.0 °C'); // never "-0.0"
+    expect(formatTemperature(Number.NaN, 'imperial')).toBe('—');
+    expect(formatTemperatureDelta(deltaFToDeltaK(5), 'imperial')).toBe('5.0 °F');
+    expect(formatTemperatureDelta(deltaFToDeltaK(5), 'metric-bar')).toBe('2.8 K');
+    expect(formatPressureGauge(psiToKPa(20), 'imperial')).toBe('20.0 psig');
+    expect(formatPressureGauge(psiToKPa(20), 'metric-bar')).toBe('1.38 bar(g)');
+    expect(formatPressureGauge(psiToKPa(20), 'metric-kpa')).toBe('138 kPa(g)');
+    expect(formatPressureGauge(150, 'metric-kpa', 1)).toBe('150.0 kPa(g)');
+  });
+
+  it('parses user input back to SI units', () => {
+    expect(parseTemperatureC('41', 'imperial')).toBeCloseTo(5, 12); // FDA Food Code §3-501.16: 41 °F = 5 °C
+    expect(parseTemperatureC(' -3,5 ', 'metric-bar')).toBe(-3.5);
+    expect(parseTemperatureDeltaK('9', 'imperial')).toBeCloseTo(5, 12);
+    expect(parseTemperatureDeltaK(4, 'metric-kpa')).toBe(4);
+    expect(parsePressureGaugeKPaG('20', 'imperial')).toBeCloseTo(psiToKPa(20), 12);
+    expect(parsePressureGaugeKPaG('1.5', 'metric-bar')).toBe(150);
+    expect(parsePressureGaugeKPaG('150', 'metric-kpa')).toBe(150);
+    for (const bad of ['', 'abc', '1.2.3', '12 psig', 'NaN', 'Infinity']) {
+      expect(() => parseTemperatureC(bad, 'imperial'), bad).toThrow(RangeError);
+    }
+    expect(() => parsePressureGaugeKPaG(Number.NaN, 'metric-kpa')).toThrow(RangeError);
+  });
+});
+
+describe('atmospheric pressure and gauge readings', () => {
+  it('follows the standard atmosphere', () => {
+    // ICAO / US Standard Atmosphere 1976: 101.325 kPa at sea level.
+    expect(atmosphericPressureKPa(0)).toBe(SEA_LEVEL_PRESSURE_KPA);
+    // US Standard Atmosphere 1976 table: about 83.5 kPa at 1,600 m (from memory).
+    expect(Math.abs(atmosphericPressureKPa(1600) - 83.5)).toBeLessThan(0.1);
+    // Altitude table (lemon-manuals; hvacrschool), TRADE-NOTES #24: 12.2 psia at 5,000 ft, 11.7 psia at 6,000 ft (to 0.1 psi).
+    expect(Math.abs(kPaToPsi(atmosphericPressureKPa(5000 * FT)) - 12.2)).toBeLessThanOrEqual(0.1);
+    expect(Math.abs(kPaToPsi(atmosphericPressureKPa(6000 * FT)) - 11.7)).toBeLessThanOrEqual(0.1);
+  });
+
+  it('converts between gauge and absolute pressure at a site', () => {
+    // Standard sea-level atmosphere 101.325 kPa (ICAO / US Standard Atmosphere 1976).
+    expect(gaugeToAbsoluteKPa(100, 0)).toBeCloseTo(201.325, 9);
+    expect(absoluteToGaugeKPa(gaugeToAbsoluteKPa(137.9, 1600), 1600)).toBeCloseTo(137.9, 9);
+    // TRADE-NOTES #24: a gauge zeroed at 5,000 ft reads ~2.5 psi more than the same absolute pressure at sea level.
+    const a = psiToKPa(40);
+    expect(Math.abs(kPaToPsi(absoluteToGaugeKPa(a, 5000 * FT) - absoluteToGaugeKPa(a, 0)) - 2.5)).toBeLessThanOrEqual(0.1);
+  });
+
+  it('refuses elevations outside the model and non-finite readings', () => {
+    for (const bad of [-1000, 20_000, Number.NaN, Number.POSITIVE_INFINITY]) {
+      expect(() => atmosphericPressureKPa(bad), String(bad)).toThrow(RangeError);
+    }
+    expect(() => gaugeToAbsoluteKPa(Number.NaN, 0)).toThrow(RangeError);
+  });
+});
+
+describe('superheat and subcooling', () => {
+  it('gives superheat as suction-line temperature minus saturated suction (dew) temperature', () => {
+    // common practice: superheat = suction-line temperature − saturated suction temperature (dew point for blends).
+    const r = superheatByPressureK({ refrigerant: 'R-448A', suctionKPaG: 150, suctionLineC: -20, elevationM: 0 });
+    expect(r.saturatedSuctionC).toBe(saturationTemperature('R-448A', 150 + 101.325, 'dew'));
+    expect(r.superheatK).toBeCloseTo(-20 - r.saturatedSuctionC, 12);
+    expect(r.saturatedSuctionC).toBeGreaterThan(saturationTemperature('R-448A', 150 + 101.325, 'bubble'));
+  });
+
+  it('reads superheat from a published pressure-temperature point', () => {
+    // NIST-REFPROP P-T chart (calcspec.com), TRADE-NOTES #19: R-134a 18.4 psig = 20 °F; line at 30 °F → 10 °F (±0.3 °F).
+    const r = superheatByPressureK({ refrigerant: 'R-134a', suctionKPaG: psiToKPa(18.4), suctionLineC: fToC(30), elevationM: 0 });
+    expect(Math.abs(deltaKToDeltaF(r.superheatK) - 10)).toBeLessThanOrEqual(0.3);
+    // hvacrschool, TRADE-NOTES #22: R-407C dew 50.8 °F at 80 psig; line at 60 °F → 9.2 °F (±0.3 °F).
+    const b = superheatByPressureK({ refrigerant: 'R-407C', suctionKPaG: psiToKPa(80), suctionLineC: fToC(60), elevationM: 0 });
+    expect(Math.abs(deltaKToDeltaF(b.superheatK) - 9.2)).toBeLessThanOrEqual(0.3);
+  });
+
+  it('gives subcooling from the bubble point', () => {
+    // hvacrschool, TRADE-NOTES #22: R-407C bubble 40.0 °F at 80 psig; liquid line at 30 °F → 10.0 °F (±0.3 °F).
+    const sc = subcoolingK({ refrigerant: 'R-407C', liquidKPaG: psiToKPa(80), liquidLineC: fToC(30), elevationM: 0 });
+    expect(Math.abs(deltaKToDeltaF(sc) - 10)).toBeLessThanOrEqual(0.3);
+  });
+
+  it('gives a different saturation temperature for the same gauge reading at altitude', () => {
+    // Physics: the gauge reads against the local atmosphere, lower at 1,600 m (TRADE-NOTES §3 gauge vs absolute).
+    const at = (elevationM: number) =>
+      superheatByPressureK({ refrigerant: 'R-404A', suctionKPaG: psiToKPa(20), suctionLineC: -20, elevationM });
+    const sea = at(0);
+    const high = at(1600);
+    expect(high.saturatedSuctionC).toBeLessThan(sea.saturatedSuctionC - 1);
+    expect(high.superheatK).toBeGreaterThan(sea.superheatK + 1);
+    // TRADE-NOTES §3: at freezer suction pressures a 2.5-psi error is several °F of saturation temperature.
+    const seaF = cToF(saturationTemperature('R-404A', psiToKPa(10 + 14.696), 'dew'));
+    const lowF = cToF(saturationTemperature('R-404A', psiToKPa(10 + 14.696 - 2.5), 'dew'));
+    expect(seaF - lowF).toBeGreaterThan(2);
+  });
+
+  it('changes the conversion of one pressure when the refrigerant changes', () => {
+    // common practice: every refrigerant has its own pressure-temperature relation.
+    const reading = { suctionKPaG: psiToKPa(20), suctionLineC: 0, elevationM: 0 };
+    const r134a = superheatByPressureK({ ...reading, refrigerant: 'R-134a' });
+    const r404a = superheatByPressureK({ ...reading, refrigerant: 'R-404A' });
+    expect(r134a.saturatedSuctionC - r404a.saturatedSuctionC).toBeGreaterThan(10);
+  });
+
+  it('flags the two-thermistor method on a blend with glide', () => {
+    // ACHR 98144 (TRADE-NOTES §3): with glide the inlet sensor overstates superheat by up to the glide.
+    const blend = superheatByThermistorsK({ refrigerant: 'R-407C', suctionLineC: 8, coilInletC: 2 });
+    expect(blend.superheatK).toBe(6);
+    expect(blend.glideWarning).toBe(true);
+    expect(blend.glideK).toBeGreaterThan(4);
+    expect(blend.note).toContain('overstate');
+    // At the pressure whose bubble point is the inlet reading, the pressure method gives exactly glideK less.
+    const p = superheatByPressureK({
+      refrigerant: 'R-407C',
+      suctionKPaG: absoluteToGaugeKPa(pressureAtBubble(2), 0),
+      suctionLineC: 8,
+      elevationM: 0,
+    });
+    expect(blend.superheatK - p.superheatK).toBeCloseTo(blend.glideK, 6);
+    const pure = superheatByThermistorsK({ refrigerant: 'R-134a', suctionLineC: 8, coilInletC: 2 });
+    expect(pure.glideWarning).toBe(false);
+    expect(pure.glideK).toBeLessThan(0.01);
+    expect(pure.note).toBeNull();
+  });
+
+  it('passes range errors through instead of returning NaN', () => {
+    expect(() =>
+      superheatByPressureK({ refrigerant: 'R-404A', suctionKPaG: 1e5, suctionLineC: 0, elevationM: 0 }),
+    ).toThrow(RefrigerantRangeError);
+    expect(() =>
+      superheatByPressureK({ refrigerant: 'R-404A', suctionKPaG: 100, suctionLineC: Number.NaN, elevationM: 0 }),
+    ).toThrow(RangeError);
+    expect(() => subcoolingK({ refrigerant: 'R-404A', liquidKPaG: -200, liquidLineC: 20, elevationM: 0 })).toThrow(
+      RefrigerantRangeError,
+    );
+  });
+});
+
+function pressureAtBubble(c: number): number {
+  // Bisection on the engine's bubble curve: the absolute pressure, kPa, whose bubble point is c (°C).
+  let lo = 50;
+  let hi = 3000;
+  for (let i = 0; i < 100; i++) {
+    const mid = 0.5 * (lo + hi);
+    if (saturationTemperature('R-407C', mid, 'bubble') < c) lo = mid;
+    else hi = mid;
+  }
+  return 0.5 * (lo + hi);
+}
+
+describe('valve position', () => {
+  it('reports percent open from steps', () => {
+    // common practice: % open = steps ÷ full-travel steps; 800 of 1,600 steps is 50 %.
+    expect(valvePercent(800, 1600)).toBe(50);
+    expect(valvePercent(0, 1600)).toBe(0);
+    expect(valvePercent(1600, 1600)).toBe(100);
+    expect(valvePercent(240, 480)).toBe(50);
+  });
+
+  it('refuses impossible step counts', () => {
+    for (const [s, f] of [[1601, 1600], [-1, 1600], [1.5, 1600], [10, 0], [Number.NaN, 1600], [10, 1600.5]] as const) {
+      expect(() => valvePercent(s, f), `${s}/${f}`).toThrow(RangeError);
+    }
+  });
+});
+
+describe('superheat judgement', () => {
+  it('sets the compressor-protection minimum at 5 °F', () => {
+    // common practice: technicians avoid running superheat below about 5 °F (2.78 K) to keep liquid from the compressor.
+    expect(COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K).toBeCloseTo(2.78, 2);
+  });
+
+  it('says low, in band or high in plain words', () => {
+    const low = judgeSuperheat(2, 5, 1);
+    expect(low.verdict).toBe('low');
+    expect(low.belowCompressorProtection).toBe(true);
+    expect(low.message).toContain('below the target band of 4.0 K to 6.0 K');
+    expect(low.message).toContain('compressor');
+    const ok = judgeSuperheat(5.5, 5, 1);
+    expect(ok.verdict).toBe('in-band');
+    expect(ok.belowCompressorProtection).toBe(false);
+    const edge = judgeSuperheat(6, 5, 1);
+    expect(edge.verdict).toBe('in-band');
+    const high = judgeSuperheat(9, 5, 1, 'imperial');
+    expect(high.verdict).toBe('high');
+    expect(high.message).toContain('16.2 °F');
+  });
+
+  it('refuses a negative band or non-finite input', () => {
+    expect(() => judgeSuperheat(5, 5, -1)).toThrow(RangeError);
+    expect(() => judgeSuperheat(Number.NaN, 5, 1)).toThrow(RangeError);
+  });
+});
