@@ -1,18 +1,31 @@
 /**
- * npm test: starts a separate MariaDB instance (.data/mariadb-test on TEST_DB_PORT, default 3308)
+ * npm test: starts a separate MariaDB instance (.data/mariadb-test-PORT on the first free port from
+ * TEST_DB_PORT, default 3308)
  * with a fresh database, makes sure Chromium and the client build exist for the browser test,
  * runs every Vitest project, then stops the instance. Extra arguments go to vitest.
  */
 import { spawn, spawnSync } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
 import { existsSync } from 'node:fs';
+import net from 'node:net';
 import path from 'node:path';
 import { MariaInstance } from './lib/mariadb';
 import { ensureClientBuilt } from './lib/build';
 
 const root = path.resolve(path.dirname(new URL(import.meta.url).pathname), '..');
-const port = Number(process.env.TEST_DB_PORT ?? 3308);
-const dataDir = path.join(root, '.data', 'mariadb-test');
+/** The first free port from `start`: concurrent test runs each get their own instance. */
+async function freePort(start: number): Promise<number> {
+  for (let p = start; p < start + 50; p++) {
+    const free = await new Promise<boolean>((resolve) => {
+      const srv = net.createServer().once('error', () => resolve(false)).listen(p, '127.0.0.1', () => srv.close(() => resolve(true)));
+    });
+    if (free) return p;
+  }
+  throw new Error(`no free port from ${start}`);
+}
+
+const port = await freePort(Number(process.env.TEST_DB_PORT ?? 3308));
+const dataDir = path.join(root, '.data', `mariadb-test-${port}`);
 const db = { name: 'rimehold_test', user: 'rimehold_test', password: randomBytes(18).toString('base64url') };
 
 function ensureChromium() {

@@ -16,6 +16,8 @@ import { requireRole } from './auth/guards';
 import { userRoutes } from './users/routes';
 import { healthRoutes } from './health/routes';
 import { registerFeatureRoutes } from './routes';
+import { telemetryRoutes } from './telemetry/routes';
+import type { SettingsService } from './telemetry/settings';
 
 export interface CreatedApp {
   app: express.Express;
@@ -26,7 +28,7 @@ export interface CreatedApp {
 }
 
 /** Builds the Express app for a context. */
-export function createApp(ctx: AppContext): CreatedApp {
+export function createApp(ctx: AppContext, settings: SettingsService): CreatedApp {
   const app = express();
   app.disable('x-powered-by');
   app.set('trust proxy', 'loopback');
@@ -76,9 +78,19 @@ export function createApp(ctx: AppContext): CreatedApp {
       res.json(mailbox.messages);
     });
   }
+  api.use(telemetryRoutes(ctx, settings));
   registerFeatureRoutes(api, ctx);
   api.use(apiNotFound);
   app.use('/api/v1', api);
+
+  // Prometheus metrics: to loopback callers (a local scraper) or signed-in admins.
+  app.get('/metrics', sessionMiddleware, passportInitialize, passportSession, async (req, res, next) => {
+    const ip = req.socket.remoteAddress ?? '';
+    const loopback = ip === '127.0.0.1' || ip === '::1' || ip === '::ffff:127.0.0.1';
+    const forwarded = req.headers['x-forwarded-for'] !== undefined;
+    if ((!loopback || forwarded) && req.user?.role !== 'admin') return next(problems.forbidden('Metrics are for administrators or local scrapers.'));
+    res.type(ctx.metrics.registry.contentType).send(await ctx.metrics.registry.metrics());
+  });
 
   const clientDir = path.join(PROJECT_ROOT, 'dist', 'client');
   if (existsSync(clientDir)) {

@@ -40,8 +40,17 @@ const EnvSchema = z.object({
   MQTT_URL: z.string().optional(),
   MQTT_INGEST_USER: z.string().default('rimehold-ingest'),
   MQTT_INGEST_PASSWORD: z.string().default('dev-only-ingest-password'),
-  /** Messages queued for one offline persistent session before the oldest are dropped. */
-  MQTT_SESSION_QUEUE_LIMIT: z.coerce.number().int().min(100).default(200_000),
+  /** The demo simulator's service account (fault injection topic only). */
+  MQTT_SIM_USER: z.string().default('rimehold-sim'),
+  MQTT_SIM_PASSWORD: z.string().default('dev-only-sim-password'),
+  /**
+   * Telemetry accepted by the broker but not yet acknowledged by the ingest. At this bound the
+   * broker refuses further telemetry (the controller is disconnected and keeps buffering), so
+   * nothing is dropped; it resumes once the ingest catches up.
+   */
+  MQTT_INGEST_QUEUE_LIMIT: z.coerce.number().int().min(100).default(200_000),
+  /** Directory of the embedded broker's durable session store (default DATA_DIR/broker). */
+  MQTT_PERSISTENCE_DIR: z.string().optional(),
   SMTP_HOST: z.string().default('127.0.0.1'),
   SMTP_PORT: z.coerce.number().int().min(0).max(65535).default(2525),
   SMTP_USER: z.string().optional(),

@@ -6,6 +6,7 @@ import type { Models } from './models';
 import type { Mailer } from './mail/mailer';
 import type { FakeSmtp } from './mail/fakeSmtp';
 import type { EventBus } from './events/bus';
+import type { TelemetryMetrics } from './telemetry/metrics';
 
 export interface BrokerStatus {
   /** 'up' when the embedded broker listens (or the external one is connected), 'down' otherwise. */
@@ -23,6 +24,7 @@ export interface AppContext {
   mailbox: FakeSmtp | null;
   bus: EventBus;
   broker: BrokerStatus;
+  metrics: TelemetryMetrics;
   /** Publishes an MQTT message through the server's own client (settings, demo faults). */
   publish?: (topic: string, payload: string, opts?: { qos?: 0 | 1; retain?: boolean }) => Promise<void>;
 }

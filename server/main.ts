@@ -1,5 +1,6 @@
 /** startServer(): wires config, database, mail, broker, ingest, HTTP and WebSocket; stop() undoes it. */
 import http from 'node:http';
+import path from 'node:path';
 import type { AddressInfo } from 'node:net';
 import type { Config } from './config';
 import { createLogger, type Logger } from './logger';
@@ -10,12 +11,25 @@ import { FakeSmtp } from './mail/fakeSmtp';
 import { EventBus } from './events/bus';
 import { createApp } from './app';
 import type { AppContext, BrokerStatus } from './context';
+import { EmbeddedBroker } from './mqtt/broker';
+import { Ingest } from './telemetry/ingest';
+import { ReadingWriter } from './telemetry/writer';
+import { BoxCache } from './telemetry/boxCache';
+import { createTelemetryMetrics } from './telemetry/metrics';
+import { SettingsService } from './telemetry/settings';
+import { scheduleRetention } from './telemetry/partitions';
+import { LiveHub } from './ws/hub';
 
 export interface RunningServer {
   url: string;
   port: number;
   ctx: AppContext;
   server: http.Server;
+  broker: EmbeddedBroker | null;
+  ingest: Ingest | null;
+  hub: LiveHub;
+  /** The MQTT URL controllers connect to (embedded broker), or null. */
+  mqttUrl: string | null;
   stop(): Promise<void>;
 }
 
@@ -23,6 +37,9 @@ export interface StartOptions {
   logger?: Logger;
   /** Start the MQTT broker and the ingest (default true). */
   telemetry?: boolean;
+  /** Ingest batching (tests and benchmarks). */
+  batchSize?: number;
+  batchWindowMs?: number;
 }
 
 /** Starts the whole server process on config.HOST:config.PORT (0 = a free port). */
@@ -45,19 +62,82 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
   const mailer = createMailer(config, smtpPort);
   stops.push(() => mailer.close());
 
-  const broker: BrokerStatus = { mode: 'none', state: () => 'down' };
-  const ctx: AppContext = { config, logger, sequelize, models, mailer, mailbox, bus: new EventBus(), broker };
+  const bus = new EventBus();
+  const metrics = createTelemetryMetrics();
+  const telemetry = opts.telemetry ?? true;
+  let embedded: EmbeddedBroker | null = null;
+  let ingest: Ingest | null = null;
+  let mqttUrl: string | null = null;
+  const brokerStatus: BrokerStatus = {
+    mode: !telemetry ? 'none' : config.MQTT_URL ? 'external' : 'embedded',
+    state: () => (embedded ? (embedded.up ? 'up' : 'down') : ingest?.connected ? 'up' : 'down'),
+  };
+  const ctx: AppContext = { config, logger, sequelize, models, mailer, mailbox, bus, broker: brokerStatus, metrics };
+  const settings = new SettingsService(ctx);
 
-  const { app, sessionMiddleware } = createApp(ctx);
+  if (telemetry) {
+    if (!config.MQTT_URL) {
+      embedded = new EmbeddedBroker({
+        host: config.MQTT_HOST,
+        port: config.MQTT_PORT,
+        persistenceDir: config.MQTT_PERSISTENCE_DIR ?? path.join(config.DATA_DIR, 'broker'),
+        ingestUser: config.MQTT_INGEST_USER,
+        ingestPassword: config.MQTT_INGEST_PASSWORD,
+        simUser: config.DEMO_MODE ? config.MQTT_SIM_USER : null,
+        simPassword: config.DEMO_MODE ? config.MQTT_SIM_PASSWORD : null,
+        ingestQueueLimit: config.MQTT_INGEST_QUEUE_LIMIT,
+        models,
+        bus,
+        metrics,
+        logger,
+      });
+      const port = await embedded.start();
+      mqttUrl = `mqtt://${config.MQTT_HOST}:${port}`;
+    }
+    const writer = new ReadingWriter(config);
+    const boxes = new BoxCache(models, bus);
+    ingest = new Ingest({
+      url: config.MQTT_URL ?? mqttUrl ?? '',
+      username: config.MQTT_INGEST_USER,
+      password: config.MQTT_INGEST_PASSWORD,
+      maxAgeDays: config.RETENTION_RAW_DAYS,
+      batchSize: opts.batchSize,
+      batchWindowMs: opts.batchWindowMs,
+      models,
+      bus,
+      metrics,
+      logger,
+      writer,
+      boxes,
+      onConfigAck: (serial, ack) => settings.onAck(serial, ack),
+    });
+    await ingest.start();
+    const ing = ingest;
+    ctx.publish = (topic, payload, o) => ing.publish(topic, payload, o);
+    settings.start();
+    const stopRetention = scheduleRetention(sequelize, { rawDays: config.RETENTION_RAW_DAYS, rollupDays: config.RETENTION_ROLLUP_DAYS }, logger);
+    stops.push(async () => {
+      stopRetention();
+      settings.stop();
+      await ing.stop();
+      await writer.close();
+      boxes.close();
+      await embedded?.stop();
+    });
+  }
+
+  const { app, sessionMiddleware, passportInitialize, passportSession } = createApp(ctx, settings);
   const server = http.createServer(app);
-  void sessionMiddleware;
   await new Promise<void>((resolve, reject) => {
     server.once('error', reject);
     server.listen(config.PORT, config.HOST, () => resolve());
   });
   const port = (server.address() as AddressInfo).port;
   const url = `http://${config.HOST}:${port}`;
-  logger.info({ url }, 'HTTP server listening');
+  const allowed = new Set([new URL(config.publicUrl).origin, url, `http://127.0.0.1:${port}`, `http://localhost:${port}`, 'http://127.0.0.1:5173', 'http://localhost:5173']);
+  const hub = new LiveHub({ server, bus, logger, middlewares: [sessionMiddleware, passportInitialize, passportSession], allowedOrigins: (origin) => allowed.has(origin) });
+  hub.start();
+  logger.info({ url, mqtt: mqttUrl ?? config.MQTT_URL ?? null }, 'Rimehold server listening');
 
   let stopped = false;
   return {
@@ -65,9 +145,14 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
     port,
     ctx,
     server,
+    broker: embedded,
+    ingest,
+    hub,
+    mqttUrl,
     async stop() {
       if (stopped) return;
       stopped = true;
+      hub.stop();
       server.closeAllConnections();
       await new Promise<void>((resolve) => server.close(() => resolve()));
       for (const s of stops.reverse()) await s();

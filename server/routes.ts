@@ -1,9 +1,21 @@
 /** Feature routers mounted under /api/v1 (after auth and CSRF). */
 import type { Router } from 'express';
 import type { AppContext } from './context';
+import { customerRoutes } from './customers/routes';
+import { siteRoutes } from './sites/routes';
+import { boxRoutes } from './boxes/routes';
+import { controllerRoutes } from './controllers/routes';
+import { auditRoutes } from './audit/routes';
+import { refrigerantRoutes } from './refrigerants/routes';
 
 /** Mounts every feature's router on the API router. */
 export function registerFeatureRoutes(api: Router, ctx: AppContext): void {
-  void api;
-  void ctx;
+  api.use('/customers', customerRoutes(ctx));
+  api.use('/sites', siteRoutes(ctx));
+  // CRUD only; /boxes/:id/latest, /readings and /settings come from the telemetry router on the same path.
+  api.use('/boxes', boxRoutes(ctx));
+  api.use('/controllers', controllerRoutes(ctx));
+  api.use('/audit', auditRoutes(ctx));
+  api.use('/refrigerants', refrigerantRoutes());
+  // telemetry routes are mounted by the lead below
 }

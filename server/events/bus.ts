@@ -10,6 +10,10 @@ export interface EventBusMap {
   controller: [{ boxId: number; customerId: number; serial: string; online: boolean; at: string }];
   /** A settings change changed state (pending, applied, rejected, timed out). */
   settings: [{ boxId: number; customerId: number; change: SettingsChangeDto }];
+  /** A controller was disabled or its secret rotated: the broker drops its connection. */
+  controllerRevoked: [{ serial: string; reason: 'disabled' | 'rotated' }];
+  /** A box's settings that the ingest caches (refrigerant, method, elevation) changed. */
+  boxChanged: [{ boxId: number }];
   /** A user signed out or was disabled: close their live sockets. */
   userSessionEnded: [{ userId: number }];
 }

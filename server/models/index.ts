@@ -13,7 +13,9 @@ import type { BoxKind, DefrostType, Role, SaturationMethod, UnitSystemPref, Valv
 const id = { type: DataTypes.INTEGER.UNSIGNED, autoIncrement: true, primaryKey: true };
 const ts = { createdAt: DataTypes.DATE(3), updatedAt: DataTypes.DATE(3) };
 const str = (n: number, allowNull = false) => ({ type: DataTypes.STRING(n), allowNull });
-const dbl = { type: DataTypes.DOUBLE, allowNull: false };
+// A function, not a shared object: Model.init writes `field` into each attribute object, so one
+// object shared by several attributes would map them all to the first column name.
+const dbl = () => ({ type: DataTypes.DOUBLE, allowNull: false });
 
 export class Customer extends Model<InferAttributes<Customer>, InferCreationAttributes<Customer>> {
   declare id: CreationOptional<number>;
@@ -110,6 +112,20 @@ export class AuditEntry extends Model<InferAttributes<AuditEntry>, InferCreation
   declare requestId: string | null;
 }
 
+export class SettingsChange extends Model<InferAttributes<SettingsChange>, InferCreationAttributes<SettingsChange>> {
+  declare id: string;
+  declare boxId: number;
+  /** JSON of the requested ConfigSetPayload (without id). */
+  declare requested: string;
+  declare applied: string | null;
+  declare state: 'pending' | 'applied' | 'rejected' | 'timed-out';
+  declare overrideReason: string | null;
+  declare requestedBy: number;
+  declare requestedAt: Date;
+  declare resolvedAt: Date | null;
+  declare error: string | null;
+}
+
 export interface Models {
   Customer: typeof Customer;
   Site: typeof Site;
@@ -117,6 +133,7 @@ export interface Models {
   Controller: typeof Controller;
   User: typeof User;
   AuditEntry: typeof AuditEntry;
+  SettingsChange: typeof SettingsChange;
 }
 
 /**
@@ -131,13 +148,14 @@ export function initModels(sequelize: Sequelize): Models {
     Controller: class extends Controller {},
     User: class extends User {},
     AuditEntry: class extends AuditEntry {},
+    SettingsChange: class extends SettingsChange {},
   };
   initInto(sequelize, m);
   return m;
 }
 
 function initInto(sequelize: Sequelize, m: Models): void {
-  const { Customer, Site, Box, Controller, User, AuditEntry } = m;
+  const { Customer, Site, Box, Controller, User, AuditEntry, SettingsChange } = m;
   Customer.init(
     {
       id,
@@ -151,7 +169,7 @@ function initInto(sequelize: Sequelize, m: Models): void {
     { sequelize, tableName: 'customers', modelName: 'Customer' },
   );
   Site.init(
-    { id, name: str(120), address: str(300, true), timeZone: str(64), elevationM: dbl, ...ts },
+    { id, name: str(120), address: str(300, true), timeZone: str(64), elevationM: dbl(), ...ts },
     { sequelize, tableName: 'sites', modelName: 'Site' },
   );
   Box.init(
@@ -159,22 +177,22 @@ function initInto(sequelize: Sequelize, m: Models): void {
       id,
       name: str(80),
       kind: { type: DataTypes.ENUM('cooler', 'freezer'), allowNull: false },
-      setpointC: dbl,
-      differentialK: dbl,
-      highLimitC: dbl,
-      lowLimitC: dbl,
+      setpointC: dbl(),
+      differentialK: dbl(),
+      highLimitC: dbl(),
+      lowLimitC: dbl(),
       alarmDelayMin: { type: DataTypes.INTEGER, allowNull: false },
       doorAlarmDelayMin: { type: DataTypes.INTEGER, allowNull: false },
       refrigerant: str(16),
       valveType: { type: DataTypes.ENUM('eev', 'txv'), allowNull: false },
       saturationMethod: { type: DataTypes.ENUM('pressure', 'coil-thermistor'), allowNull: false },
-      superheatTargetK: dbl,
+      superheatTargetK: dbl(),
       defrostType: { type: DataTypes.ENUM('off-cycle', 'electric', 'hot-gas'), allowNull: false },
-      defrostIntervalH: dbl,
-      defrostMaxMin: dbl,
-      defrostTerminationC: dbl,
-      dripMin: dbl,
-      fanDelayMin: dbl,
+      defrostIntervalH: dbl(),
+      defrostMaxMin: dbl(),
+      defrostTerminationC: dbl(),
+      dripMin: dbl(),
+      fanDelayMin: dbl(),
       ...ts,
     },
     { sequelize, tableName: 'boxes', modelName: 'Box' },
@@ -227,6 +245,22 @@ function initInto(sequelize: Sequelize, m: Models): void {
       requestId: str(64, true),
     },
     { sequelize, tableName: 'audit_entries', modelName: 'AuditEntry', timestamps: false },
+  );
+
+  SettingsChange.init(
+    {
+      id: { type: DataTypes.CHAR(36), primaryKey: true },
+      boxId: { type: DataTypes.INTEGER.UNSIGNED, allowNull: false },
+      requested: { type: DataTypes.TEXT('long'), allowNull: false },
+      applied: { type: DataTypes.TEXT('long'), allowNull: true },
+      state: { type: DataTypes.ENUM('pending', 'applied', 'rejected', 'timed-out'), allowNull: false },
+      overrideReason: str(500, true),
+      requestedBy: { type: DataTypes.INTEGER.UNSIGNED, allowNull: false },
+      requestedAt: { type: DataTypes.DATE(3), allowNull: false },
+      resolvedAt: { type: DataTypes.DATE(3), allowNull: true },
+      error: str(200, true),
+    },
+    { sequelize, tableName: 'settings_changes', modelName: 'SettingsChange', timestamps: false },
   );
 
   Customer.hasMany(Site, { foreignKey: 'customerId', as: 'sites' });

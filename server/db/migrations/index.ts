@@ -1,4 +1,8 @@
 /** Every migration, in order. Add new files here (a static list works under tsx, Vitest and compiled JS alike). */
 import * as m0001 from './0001-core';
+import * as m0002 from './0002-telemetry';
 
-export const MIGRATIONS = [{ name: '0001-core', ...m0001 }];
+export const MIGRATIONS = [
+  { name: '0001-core', ...m0001 },
+  { name: '0002-telemetry', ...m0002 },
+];

@@ -1,0 +1,133 @@
+/** Boxes: tenant-scoped loading and the write use cases, with who may change which field. */
+import { ForeignKeyConstraintError, Op } from 'sequelize';
+import { DefrostSettings, type BoxCreateBody, type BoxUpdateBody } from '../../shared/schemas/boxes';
+import { ConfigSetPayload } from '../../shared/schemas/telemetry';
+import type { SessionUser } from '../../shared/schemas/auth';
+import type { AppContext } from '../context';
+import type { Box, Controller, Models, Site } from '../models';
+import { scopeWhere } from '../auth/guards';
+import { HttpProblem, problems } from '../http/problem';
+import { changedKeys } from '../http/patch';
+
+/** A box loaded with its site, customer and controller. */
+export type BoxWithRelations = Box & { site?: Site; customer?: { name: string }; controller?: Controller | null };
+
+export const BOX_INCLUDE = [
+  { association: 'site', attributes: ['id', 'name'] },
+  { association: 'customer', attributes: ['id', 'name'] },
+  { association: 'controller' },
+];
+
+type BoxField = keyof BoxUpdateBody;
+
+/**
+ * Settings the controller holds: these reach it through PUT /boxes/:id/settings (which records the
+ * change and waits for the controller's acknowledgement), so a PATCH must not change them behind
+ * the controller's back. Derived from the config/set payload so the two lists cannot drift.
+ */
+export const CONTROLLER_FIELDS: ReadonlySet<BoxField> = new Set<BoxField>([
+  ...(Object.keys(ConfigSetPayload.shape).filter((k) => k !== 'id' && k !== 'defrost') as BoxField[]),
+  ...(Object.keys(DefrostSettings.shape) as BoxField[]),
+]);
+
+/** What a technician may PATCH: descriptive fields and alarm limits (not the site, not controller settings). */
+export const TECHNICIAN_FIELDS: ReadonlySet<BoxField> = new Set<BoxField>([
+  'name',
+  'kind',
+  'valveType',
+  'saturationMethod',
+  'highLimitC',
+  'lowLimitC',
+  'alarmDelayMin',
+  'doorAlarmDelayMin',
+]);
+
+/** One box the user may see, with its relations, or a 404 problem (another tenant's box is "not found"). */
+export async function loadScopedBox(models: Models, user: SessionUser, id: number): Promise<BoxWithRelations> {
+  const b = await models.Box.findOne({ where: { [Op.and]: [{ id }, scopeWhere(user)] }, include: BOX_INCLUDE });
+  if (!b) throw problems.notFound('box');
+  return b;
+}
+
+async function siteForBox(models: Models, siteId: number): Promise<Site> {
+  const site = await models.Site.findByPk(siteId);
+  if (!site) throw problems.unprocessable('unknown-site', 'Unknown site', `Site ${siteId} does not exist.`, { siteId: ['Unknown site'] });
+  return site;
+}
+
+/** Creates a box on an existing site (422 otherwise); its customer is the site's. */
+export async function createBox(models: Models, body: BoxCreateBody): Promise<Box> {
+  const site = await siteForBox(models, body.siteId);
+  return models.Box.create({ ...body, customerId: site.customerId });
+}
+
+function fieldErrors(keys: BoxField[], message: string): Record<string, string[]> {
+  return Object.fromEntries(keys.map((k) => [k, [message]]));
+}
+
+/** Throws unless the role may make these changes to this box. */
+function authorizeChanges(user: SessionUser, box: BoxWithRelations, changed: BoxField[]): void {
+  if (user.role === 'technician') {
+    const refused = changed.filter((k) => !TECHNICIAN_FIELDS.has(k));
+    if (refused.length > 0) {
+      const detail = `A technician may change descriptive fields and alarm limits only; send controller settings with PUT /boxes/${box.id}/settings. Refused: ${refused.join(', ')}.`;
+      throw new HttpProblem(403, 'forbidden', 'Not allowed', detail, fieldErrors(refused, 'Not editable by a technician'));
+    }
+    return;
+  }
+  const viaController = changed.filter((k) => CONTROLLER_FIELDS.has(k));
+  if (box.controller && viaController.length > 0) {
+    const detail = `Box "${box.name}" has controller ${box.controller.serial}: change ${viaController.join(', ')} with PUT /boxes/${box.id}/settings so the controller applies it.`;
+    throw new HttpProblem(409, 'controller-settings', 'Setting held by the controller', detail, fieldErrors(viaController, 'Change this through the controller settings'));
+  }
+}
+
+/** Throws a 422 problem unless low limit < setpoint < high limit holds (°C). */
+function assertLimitsOrdered(v: { lowLimitC: number; setpointC: number; highLimitC: number }): void {
+  if (v.lowLimitC < v.setpointC && v.setpointC < v.highLimitC) return;
+  const msg = `Low limit < setpoint < high limit is required (now ${v.lowLimitC} °C, ${v.setpointC} °C, ${v.highLimitC} °C)`;
+  throw problems.unprocessable('limits-order', 'Alarm limits out of order', msg, { lowLimitC: [msg], highLimitC: [msg] });
+}
+
+/** What an update did: the fields that changed, with their old and new values. */
+export interface BoxUpdateResult {
+  changed: BoxField[];
+  was: Partial<Record<BoxField, unknown>>;
+  now: Partial<Record<BoxField, unknown>>;
+}
+
+/**
+ * Applies a PATCH: only fields whose value differs count as changes; the role decides which may
+ * change; the merged limits must stay ordered; a move to another site takes that site's customer.
+ */
+export async function updateBox(models: Models, user: SessionUser, box: BoxWithRelations, changes: BoxUpdateBody): Promise<BoxUpdateResult> {
+  const changed = changedKeys<BoxUpdateBody>(changes, box);
+  authorizeChanges(user, box, changed);
+  const was: Partial<Record<BoxField, unknown>> = Object.fromEntries(changed.map((k) => [k, box[k]]));
+  const now: Partial<Record<BoxField, unknown>> = Object.fromEntries(changed.map((k) => [k, changes[k]]));
+  if (changed.length === 0) return { changed, was, now };
+  assertLimitsOrdered({
+    lowLimitC: changes.lowLimitC ?? box.lowLimitC,
+    setpointC: changes.setpointC ?? box.setpointC,
+    highLimitC: changes.highLimitC ?? box.highLimitC,
+  });
+  const values: Partial<BoxUpdateBody> & { customerId?: number } = Object.fromEntries(changed.map((k) => [k, changes[k]]));
+  if (changes.siteId !== undefined && changed.includes('siteId')) {
+    values.customerId = (await siteForBox(models, changes.siteId)).customerId;
+  }
+  await box.update(values);
+  return { changed, was, now };
+}
+
+/** Deletes a box (its controller goes with it); returns the serial of that controller, if any. */
+export async function deleteBox(ctx: AppContext, box: BoxWithRelations): Promise<string | null> {
+  const serial = box.controller?.serial ?? null;
+  try {
+    await box.destroy();
+  } catch (err) {
+    if (err instanceof ForeignKeyConstraintError) throw problems.conflict(`Box "${box.name}" still has records that refer to it and cannot be deleted.`);
+    throw err;
+  }
+  if (serial) ctx.bus.emit('controllerRevoked', { serial, reason: 'disabled' });
+  return serial;
+}

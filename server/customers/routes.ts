@@ -1,0 +1,86 @@
+/** /api/v1/customers: list and get for every role (a manager sees only their own); writes admin only. */
+import { Router } from 'express';
+import { Op, type WhereOptions } from 'sequelize';
+import { CustomerBody, type CustomerDto } from '../../shared/schemas/customers';
+import type { AppContext } from '../context';
+import type { Customer } from '../models';
+import { currentUser, requireAuth, requireRole } from '../auth/guards';
+import { pageOf, pageResult, parseBody, parseId } from '../http/validate';
+import { sentFields } from '../http/patch';
+import { contains } from '../http/search';
+import { audit } from '../audit/service';
+import { createCustomer, customerScope, deleteCustomer, loadScopedCustomer, siteCountsOf, updateCustomer } from './service';
+
+/** Presents a customer row with its number of sites. */
+export function toCustomerDto(c: Customer, siteCount: number): CustomerDto {
+  return {
+    id: c.id,
+    name: c.name,
+    contactName: c.contactName,
+    contactEmail: c.contactEmail,
+    contactPhone: c.contactPhone,
+    notes: c.notes,
+    siteCount,
+    createdAt: c.createdAt.toISOString(),
+    updatedAt: c.updatedAt.toISOString(),
+  };
+}
+
+const CustomerPatchBody = CustomerBody.partial();
+
+/** The customers router. */
+export function customerRoutes(ctx: AppContext): Router {
+  const r = Router();
+  const { models } = ctx;
+
+  async function present(c: Customer): Promise<CustomerDto> {
+    const counts = await siteCountsOf(models, [c.id]);
+    return toCustomerDto(c, counts.get(c.id) ?? 0);
+  }
+
+  r.get('/', requireAuth, async (req, res) => {
+    const user = currentUser(req);
+    const p = pageOf(req);
+    const search: WhereOptions<Customer> = p.q
+      ? { [Op.or]: [{ name: contains(p.q) }, { contactName: contains(p.q) }, { contactEmail: contains(p.q) }] }
+      : {};
+    const { rows, count } = await models.Customer.findAndCountAll({
+      where: { [Op.and]: [customerScope(user), search] },
+      order: [['name', 'ASC'], ['id', 'ASC']],
+      limit: p.pageSize,
+      offset: p.offset,
+    });
+    const counts = await siteCountsOf(models, rows.map((c) => c.id));
+    res.json(pageResult(rows.map((c) => toCustomerDto(c, counts.get(c.id) ?? 0)), count, p));
+  });
+
+  r.get('/:id', requireAuth, async (req, res) => {
+    const c = await loadScopedCustomer(models, currentUser(req), parseId(req));
+    res.json(await present(c));
+  });
+
+  r.post('/', requireRole('admin'), async (req, res) => {
+    const body = parseBody(CustomerBody, req);
+    const c = await createCustomer(models, body);
+    await audit(models, req, { action: 'customer.create', entityType: 'customer', entityId: c.id, customerId: c.id, detail: { name: c.name } });
+    res.status(201).json(toCustomerDto(c, 0));
+  });
+
+  r.patch('/:id', requireRole('admin'), async (req, res) => {
+    const id = parseId(req);
+    const changes = sentFields(parseBody(CustomerPatchBody, req), req.body);
+    const c = await loadScopedCustomer(models, currentUser(req), id);
+    await updateCustomer(models, c, changes);
+    await audit(models, req, { action: 'customer.update', entityType: 'customer', entityId: c.id, customerId: c.id, detail: changes });
+    res.json(await present(c));
+  });
+
+  r.delete('/:id', requireRole('admin'), async (req, res) => {
+    const c = await loadScopedCustomer(models, currentUser(req), parseId(req));
+    await deleteCustomer(models, c);
+    await audit(models, req, { action: 'customer.delete', entityType: 'customer', entityId: c.id, customerId: c.id, detail: { name: c.name } });
+    res.status(204).end();
+  });
+
+  return r;
+}

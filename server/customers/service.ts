@@ -1,0 +1,86 @@
+/** Customers: tenant-scoped loading, site counts, and the write use cases (admin only). */
+import { ForeignKeyConstraintError, Op, UniqueConstraintError, col, fn, type WhereOptions } from 'sequelize';
+import type { CustomerBody } from '../../shared/schemas/customers';
+import type { SessionUser } from '../../shared/schemas/auth';
+import type { Customer, Models } from '../models';
+import { scopeWhere } from '../auth/guards';
+import { problems } from '../http/problem';
+
+/** The `where` limiting the customers table to the user's tenant (the tenant key is the row's own id). */
+export function customerScope(user: SessionUser): WhereOptions<Customer> {
+  const scope = scopeWhere(user);
+  return scope.customerId === undefined ? {} : { id: scope.customerId };
+}
+
+/** One customer the user may see, or a 404 problem (another tenant's row is "not found"). */
+export async function loadScopedCustomer(models: Models, user: SessionUser, id: number): Promise<Customer> {
+  const c = await models.Customer.findOne({ where: { [Op.and]: [{ id }, customerScope(user)] } });
+  if (!c) throw problems.notFound('customer');
+  return c;
+}
+
+/** Number of sites per customer id, for the given customers. */
+export async function siteCountsOf(models: Models, customerIds: number[]): Promise<Map<number, number>> {
+  const out = new Map<number, number>();
+  if (customerIds.length === 0) return out;
+  const rows = (await models.Site.findAll({
+    attributes: [[col('customer_id'), 'k'], [fn('COUNT', col('id')), 'n']],
+    where: { customerId: customerIds },
+    group: [col('customer_id')],
+    raw: true,
+  })) as unknown as Array<{ k: number | string; n: number | string }>;
+  for (const r of rows) out.set(Number(r.k), Number(r.n));
+  return out;
+}
+
+/** Throws a 422 problem naming the field when the customer does not exist. */
+export async function assertCustomerExists(models: Models, customerId: number, field = 'customerId'): Promise<Customer> {
+  const c = await models.Customer.findByPk(customerId);
+  if (!c) throw problems.unprocessable('unknown-customer', 'Unknown customer', `Customer ${customerId} does not exist.`, { [field]: ['Unknown customer'] });
+  return c;
+}
+
+function duplicateName(name: string) {
+  return problems.conflict(`A customer named "${name}" already exists.`);
+}
+
+async function assertNameFree(models: Models, name: string, exceptId?: number): Promise<void> {
+  const other = await models.Customer.findOne({ where: { name } });
+  if (other && other.id !== exceptId) throw duplicateName(name);
+}
+
+/** Creates a customer; 409 when the name is taken. */
+export async function createCustomer(models: Models, body: CustomerBody): Promise<Customer> {
+  await assertNameFree(models, body.name);
+  try {
+    return await models.Customer.create(body);
+  } catch (err) {
+    if (err instanceof UniqueConstraintError) throw duplicateName(body.name);
+    throw err;
+  }
+}
+
+/** Applies the sent fields to a customer; 409 when the new name is taken. */
+export async function updateCustomer(models: Models, c: Customer, changes: Partial<CustomerBody>): Promise<Customer> {
+  if (changes.name !== undefined) await assertNameFree(models, changes.name, c.id);
+  try {
+    return await c.update(changes);
+  } catch (err) {
+    if (err instanceof UniqueConstraintError) throw duplicateName(changes.name ?? c.name);
+    throw err;
+  }
+}
+
+/** Deletes a customer that has no sites and no users left; 409 otherwise. */
+export async function deleteCustomer(models: Models, c: Customer): Promise<void> {
+  const [sites, users] = await Promise.all([models.Site.count({ where: { customerId: c.id } }), models.User.count({ where: { customerId: c.id } })]);
+  if (sites > 0 || users > 0) {
+    throw problems.conflict(`Customer "${c.name}" still has ${sites} site(s) and ${users} user(s); remove or move them first.`);
+  }
+  try {
+    await c.destroy();
+  } catch (err) {
+    if (err instanceof ForeignKeyConstraintError) throw problems.conflict(`Customer "${c.name}" still has records that refer to it and cannot be deleted.`);
+    throw err;
+  }
+}

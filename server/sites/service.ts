@@ -1,0 +1,72 @@
+/** Sites: tenant-scoped loading, box counts, and the write use cases (admin only). */
+import { ForeignKeyConstraintError, Op, col, fn } from 'sequelize';
+import type { SiteBody } from '../../shared/schemas/customers';
+import type { SessionUser } from '../../shared/schemas/auth';
+import type { AppContext } from '../context';
+import type { Models, Site } from '../models';
+import { scopeWhere } from '../auth/guards';
+import { problems } from '../http/problem';
+import { assertCustomerExists } from '../customers/service';
+
+/** A site loaded with its customer (for the customer's name). */
+export type SiteWithCustomer = Site & { customer?: { name: string } };
+
+export const SITE_INCLUDE = [{ association: 'customer', attributes: ['id', 'name'] }];
+
+/** One site the user may see, or a 404 problem (another tenant's site is "not found"). */
+export async function loadScopedSite(models: Models, user: SessionUser, id: number): Promise<SiteWithCustomer> {
+  const s = await models.Site.findOne({ where: { [Op.and]: [{ id }, scopeWhere(user)] }, include: SITE_INCLUDE });
+  if (!s) throw problems.notFound('site');
+  return s;
+}
+
+/** Number of boxes per site id, for the given sites. */
+export async function boxCountsOf(models: Models, siteIds: number[]): Promise<Map<number, number>> {
+  const out = new Map<number, number>();
+  if (siteIds.length === 0) return out;
+  const rows = (await models.Box.findAll({
+    attributes: [[col('site_id'), 'k'], [fn('COUNT', col('id')), 'n']],
+    where: { siteId: siteIds },
+    group: [col('site_id')],
+    raw: true,
+  })) as unknown as Array<{ k: number | string; n: number | string }>;
+  for (const r of rows) out.set(Number(r.k), Number(r.n));
+  return out;
+}
+
+/** Creates a site of an existing customer (422 when the customer does not exist). */
+export async function createSite(models: Models, body: SiteBody): Promise<Site> {
+  await assertCustomerExists(models, body.customerId);
+  return models.Site.create(body);
+}
+
+/**
+ * Applies the sent fields to a site. Moving the site to another customer moves its boxes too
+ * (boxes.customer_id is a copy of the site's, used for tenant scoping). Returns the ids of the
+ * site's boxes when something the ingest caches per box (elevation, tenant) changed, else [].
+ */
+export async function updateSite(ctx: AppContext, site: Site, changes: Partial<SiteBody>): Promise<number[]> {
+  const { models } = ctx;
+  const movesCustomer = changes.customerId !== undefined && changes.customerId !== site.customerId;
+  if (movesCustomer && changes.customerId !== undefined) await assertCustomerExists(models, changes.customerId);
+  const elevationChanged = changes.elevationM !== undefined && changes.elevationM !== site.elevationM;
+  await ctx.sequelize.transaction(async (transaction) => {
+    await site.update(changes, { transaction });
+    if (movesCustomer) await models.Box.update({ customerId: site.customerId }, { where: { siteId: site.id }, transaction });
+  });
+  if (!movesCustomer && !elevationChanged) return [];
+  const boxes = await models.Box.findAll({ attributes: ['id'], where: { siteId: site.id } });
+  return boxes.map((b) => b.id);
+}
+
+/** Deletes a site without boxes; 409 while it still has boxes. */
+export async function deleteSite(models: Models, site: Site): Promise<void> {
+  const boxes = await models.Box.count({ where: { siteId: site.id } });
+  if (boxes > 0) throw problems.conflict(`Site "${site.name}" still has ${boxes} box(es); delete or move them first.`);
+  try {
+    await site.destroy();
+  } catch (err) {
+    if (err instanceof ForeignKeyConstraintError) throw problems.conflict(`Site "${site.name}" still has records that refer to it and cannot be deleted.`);
+    throw err;
+  }
+}

@@ -1,0 +1,68 @@
+/** serial → what the conversion needs about the box; refreshed when a box or controller changes. */
+import type { Models } from '../models';
+import type { EventBus } from '../events/bus';
+import type { BoxInfo } from './convert';
+
+const NEGATIVE_TTL_MS = 30_000;
+
+export class BoxCache {
+  private bySerial = new Map<string, BoxInfo>();
+  private unknown = new Map<string, number>();
+  private readonly onBox = ({ boxId }: { boxId: number }) => {
+    for (const [serial, info] of this.bySerial) if (info.boxId === boxId) this.bySerial.delete(serial);
+  };
+  private readonly onRevoked = ({ serial }: { serial: string }) => {
+    this.bySerial.delete(serial);
+  };
+
+  constructor(
+    private readonly models: Models,
+    private readonly bus: EventBus,
+  ) {
+    bus.on('boxChanged', this.onBox);
+    bus.on('controllerRevoked', this.onRevoked);
+  }
+
+  /** The box of a controller serial, or null when no such controller exists. */
+  async get(serial: string): Promise<BoxInfo | null> {
+    const hit = this.bySerial.get(serial);
+    if (hit) return hit;
+    const miss = this.unknown.get(serial);
+    if (miss && Date.now() - miss < NEGATIVE_TTL_MS) return null;
+    const ctl = await this.models.Controller.findOne({
+      where: { serial },
+      include: [{ model: this.models.Box, as: 'box', include: [{ model: this.models.Site, as: 'site' }] }],
+    });
+    const box = (ctl as unknown as { box?: InstanceType<Models['Box']> & { site?: InstanceType<Models['Site']> } } | null)?.box;
+    if (!ctl || !box || !box.site) {
+      this.unknown.set(serial, Date.now());
+      return null;
+    }
+    const info: BoxInfo = {
+      boxId: box.id,
+      customerId: box.customerId,
+      controllerId: ctl.id,
+      serial,
+      refrigerant: box.refrigerant,
+      saturationMethod: box.saturationMethod,
+      valveType: box.valveType,
+      elevationM: box.site.elevationM,
+      valveFullSteps: ctl.valveFullSteps,
+      disabled: ctl.disabled,
+    };
+    this.bySerial.set(serial, info);
+    this.unknown.delete(serial);
+    return info;
+  }
+
+  /** Forgets everything (tests, after bulk changes). */
+  clear(): void {
+    this.bySerial.clear();
+    this.unknown.clear();
+  }
+
+  close(): void {
+    this.bus.off('boxChanged', this.onBox);
+    this.bus.off('controllerRevoked', this.onRevoked);
+  }
+}

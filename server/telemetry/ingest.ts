@@ -1,0 +1,349 @@
+/**
+ * The ingest: an ordinary MQTT client (persistent session, QoS 1) of the embedded or an external
+ * broker. A message is acknowledged only after its reading is committed, so a crash, a broker
+ * restart or a database outage loses nothing: unacknowledged messages are delivered again.
+ * Messages are handled in batches (by size and by a short time window). When the database fails,
+ * the ingest drops its connection without acknowledging, waits for the database and reconnects.
+ */
+import mqtt, { type IPublishPacket, type MqttClient } from 'mqtt';
+import type { Logger } from '../logger';
+import type { EventBus } from '../events/bus';
+import type { Models } from '../models';
+import { ConfigAckPayload, MAX_FUTURE_SKEW_MS, MAX_TELEMETRY_BYTES, StatusPayload, TelemetryPayload, parseControllerTopic, TOPIC_PREFIX } from '../../shared/schemas/telemetry';
+import { convertReading, type ConvertedReading } from './convert';
+import type { BoxCache } from './boxCache';
+import type { TelemetryMetrics, RejectReason } from './metrics';
+import { isTransientError, toDto, type ReadingWriter } from './writer';
+
+export interface IngestOptions {
+  url: string;
+  username: string;
+  password: string;
+  clientId?: string;
+  batchSize?: number;
+  batchWindowMs?: number;
+  /** Readings older than this many days are refused (their partitions are gone). */
+  maxAgeDays: number;
+  models: Models;
+  bus: EventBus;
+  metrics: TelemetryMetrics;
+  logger: Logger;
+  writer: ReadingWriter;
+  boxes: BoxCache;
+  /** Called for each config/ack after the batch it came in is committed. */
+  onConfigAck?: (serial: string, ack: ConfigAckPayload) => Promise<void>;
+}
+
+type Item =
+  | { kind: 'reading'; messageId: number | undefined; gen: number; reading: ConvertedReading; controllerId: number; customerId: number }
+  | { kind: 'status'; messageId: number | undefined; gen: number; serial: string; online: boolean }
+  | { kind: 'ack'; messageId: number | undefined; gen: number; serial: string; ack: ConfigAckPayload }
+  | { kind: 'none'; messageId: number | undefined; gen: number };
+
+/** Thrown into mqtt.js's handleMessage callback: it skips its own PUBACK, we send ours after the commit. */
+const DEFER = new Error('ack deferred until commit');
+
+interface PrivateClient {
+  _sendPacket(packet: { cmd: 'puback'; messageId: number }, cb?: () => void): void;
+}
+
+export class Ingest {
+  private client: MqttClient | null = null;
+  private gen = 0;
+  private pending: Item[] = [];
+  private timer: NodeJS.Timeout | null = null;
+  private flushing: Promise<void> | null = null;
+  private paused = false;
+  private stopped = false;
+  private lastSeen = new Map<number, number>();
+  private touchTimer: NodeJS.Timeout | null = null;
+  private lastRejectLog = new Map<string, number>();
+  readonly counts = { accepted: 0, duplicates: 0, rejected: 0, outages: 0 };
+  private readonly batchSize: number;
+  private readonly windowMs: number;
+
+  constructor(private readonly o: IngestOptions) {
+    this.batchSize = o.batchSize ?? 1000;
+    this.windowMs = o.batchWindowMs ?? 50;
+  }
+
+  /** Connects and subscribes; resolves once subscribed. */
+  async start(): Promise<void> {
+    this.stopped = false;
+    this.touchTimer = setInterval(() => void this.touch(), 10_000);
+    await this.connect();
+  }
+
+  /** True while connected to the broker. */
+  get connected(): boolean {
+    return this.client?.connected === true;
+  }
+
+  private connect(): Promise<void> {
+    const o = this.o;
+    const client = mqtt.connect(o.url, {
+      clientId: o.clientId ?? 'rimehold-ingest',
+      username: o.username,
+      password: o.password,
+      clean: false,
+      protocolVersion: 4,
+      reconnectPeriod: 1000,
+      connectTimeout: 10_000,
+      keepalive: 30,
+      resubscribe: true,
+    });
+    this.client = client;
+    // gen counts connections: a PUBACK is only ever sent on the connection its message came on.
+    client.on('connect', () => {
+      this.gen++;
+    });
+    client.handleMessage = (packet, callback) => {
+      this.receive(packet, this.gen);
+      callback(DEFER);
+    };
+    client.on('error', (err) => o.logger.warn({ err: err.message }, 'ingest mqtt error'));
+    client.on('close', () => {
+      // Whatever was received on the lost connection will be delivered again: forget it.
+      const gen = this.gen;
+      this.pending = this.pending.filter((i) => i.gen !== gen);
+      o.metrics.queueDepth.set(this.pending.length);
+    });
+    return new Promise((resolve, reject) => {
+      client.once('connect', (connack) => {
+        const subs = ['telemetry', 'status', 'config/ack'].reduce<Record<string, { qos: 1 }>>((acc, k) => ({ ...acc, [`${TOPIC_PREFIX}/+/${k}`]: { qos: 1 } }), {});
+        if (connack.sessionPresent) {
+          o.logger.info('ingest resumed its persistent session');
+          return resolve();
+        }
+        client.subscribeAsync(subs).then(() => resolve(), reject);
+      });
+      client.once('error', reject);
+    });
+  }
+
+  private reject(serial: string, reason: RejectReason, detail: string): void {
+    this.o.metrics.rejected.inc({ reason });
+    this.counts.rejected++;
+    const last = this.lastRejectLog.get(serial) ?? 0;
+    if (Date.now() - last > 60_000) {
+      this.lastRejectLog.set(serial, Date.now());
+      this.o.logger.warn({ serial, reason, detail }, 'telemetry rejected (logged once per controller per minute)');
+    }
+  }
+
+  /** Validates one message into a queue item (synchronously where possible, to keep the order). */
+  private receive(packet: IPublishPacket, gen: number): void {
+    const messageId = packet.messageId;
+    const t = parseControllerTopic(packet.topic);
+    const payload = Buffer.isBuffer(packet.payload) ? packet.payload : Buffer.from(packet.payload);
+    if (!t) {
+      this.reject('?', 'topic', packet.topic);
+      return this.enqueue({ kind: 'none', messageId, gen });
+    }
+    if (t.kind === 'status') {
+      const s = StatusPayload.safeParse(payload.toString('utf8').trim());
+      if (!s.success) this.reject(t.serial, 'schema', 'status must be online or offline');
+      return this.enqueue(s.success ? { kind: 'status', messageId, gen, serial: t.serial, online: s.data === 'online' } : { kind: 'none', messageId, gen });
+    }
+    if (t.kind === 'config/ack') {
+      let parsed: unknown;
+      try {
+        parsed = JSON.parse(payload.toString('utf8'));
+      } catch {
+        this.reject(t.serial, 'bad-json', 'config/ack');
+        return this.enqueue({ kind: 'none', messageId, gen });
+      }
+      const a = ConfigAckPayload.safeParse(parsed);
+      if (!a.success) this.reject(t.serial, 'schema', a.error.issues[0]?.message ?? 'config/ack');
+      return this.enqueue(a.success ? { kind: 'ack', messageId, gen, serial: t.serial, ack: a.data } : { kind: 'none', messageId, gen });
+    }
+    if (t.kind !== 'telemetry') {
+      this.reject(t.serial, 'topic', packet.topic);
+      return this.enqueue({ kind: 'none', messageId, gen });
+    }
+    if (payload.length > MAX_TELEMETRY_BYTES) {
+      this.reject(t.serial, 'too-large', `${payload.length} bytes`);
+      return this.enqueue({ kind: 'none', messageId, gen });
+    }
+    let json: unknown;
+    try {
+      json = JSON.parse(payload.toString('utf8'));
+    } catch {
+      this.reject(t.serial, 'bad-json', 'not JSON');
+      return this.enqueue({ kind: 'none', messageId, gen });
+    }
+    const r = TelemetryPayload.safeParse(json);
+    if (!r.success) {
+      this.reject(t.serial, 'schema', r.error.issues.map((i) => `${i.path.join('.')}: ${i.message}`).join('; '));
+      return this.enqueue({ kind: 'none', messageId, gen });
+    }
+    const tsMs = Date.parse(r.data.ts);
+    if (tsMs > Date.now() + MAX_FUTURE_SKEW_MS) {
+      this.reject(t.serial, 'future-ts', r.data.ts);
+      return this.enqueue({ kind: 'none', messageId, gen });
+    }
+    if (tsMs < Date.now() - this.o.maxAgeDays * 86_400_000) {
+      this.reject(t.serial, 'too-old', r.data.ts);
+      return this.enqueue({ kind: 'none', messageId, gen });
+    }
+    // The box lookup is async on a cold cache: hold the slot so acks stay in order.
+    const slot: Item = { kind: 'none', messageId, gen };
+    this.enqueue(slot);
+    const data = r.data;
+    const serial = t.serial;
+    const resolved = this.o.boxes.get(serial).then((box) => {
+      if (!box) return this.reject(serial, 'unknown-serial', serial);
+      if (box.disabled) return this.reject(serial, 'disabled', serial);
+      Object.assign(slot, { kind: 'reading', reading: convertReading(data, box), controllerId: box.controllerId, customerId: box.customerId });
+    });
+    this.lookups.add(resolved);
+    void resolved.catch((err: unknown) => this.o.logger.error({ err }, 'box lookup failed')).finally(() => this.lookups.delete(resolved));
+  }
+
+  private lookups = new Set<Promise<void>>();
+
+  private enqueue(item: Item): void {
+    this.pending.push(item);
+    this.o.metrics.queueDepth.set(this.pending.length);
+    if (this.pending.length >= this.batchSize) this.kick();
+    else if (!this.timer) this.timer = setTimeout(() => this.kick(), this.windowMs);
+  }
+
+  private kick(): void {
+    if (this.timer) {
+      clearTimeout(this.timer);
+      this.timer = null;
+    }
+    if (this.flushing || this.paused) return;
+    this.flushing = this.flushLoop().finally(() => {
+      this.flushing = null;
+    });
+  }
+
+  private async flushLoop(): Promise<void> {
+    let attempt = 0;
+    while (this.pending.length > 0 && !this.paused) {
+      if (this.lookups.size > 0) await Promise.allSettled([...this.lookups]);
+      const batch = this.pending.slice(0, this.batchSize);
+      const gen = this.gen;
+      const readings = batch.filter((i): i is Extract<Item, { kind: 'reading' }> => i.kind === 'reading' && i.gen === gen);
+      const t0 = performance.now();
+      try {
+        const res = await this.o.writer.flush(readings.map((i) => i.reading));
+        this.o.metrics.insertSeconds.observe((performance.now() - t0) / 1000);
+        this.o.metrics.batchSize.observe(readings.length);
+        await this.sideEffects(batch);
+        this.removeHandled(batch);
+        this.o.metrics.queueDepth.set(this.pending.length);
+        this.ackAll(batch, gen);
+        this.o.metrics.accepted.inc(res.stored.length);
+        this.o.metrics.duplicates.inc(res.duplicates);
+        this.counts.accepted += res.stored.length;
+        this.counts.duplicates += res.duplicates;
+        const byId = new Map(readings.map((i) => [i.reading, i]));
+        for (const r of res.stored) {
+          const item = byId.get(r);
+          if (!item) continue;
+          this.lastSeen.set(item.controllerId, Date.parse(r.ts));
+          this.o.bus.emit('reading', { boxId: r.boxId, customerId: item.customerId, reading: toDto(r) });
+        }
+      } catch (err) {
+        // Deadlocks and lock waits are transient: try the same batch again at once.
+        if (isTransientError(err) && attempt < 5) {
+          attempt++;
+          continue;
+        }
+        // Anything else (database down, a broken schema): acknowledge nothing, pause, come back.
+        await this.outage(err);
+        return;
+      }
+      attempt = 0;
+    }
+  }
+
+  /** Removes a handled batch from the queue (the queue may have been cut by a lost connection meanwhile). */
+  private removeHandled(batch: Item[]): void {
+    if (this.pending[0] === batch[0]) this.pending.splice(0, batch.length);
+    else {
+      const done = new Set(batch);
+      this.pending = this.pending.filter((i) => !done.has(i));
+    }
+  }
+
+  private async sideEffects(batch: Item[]): Promise<void> {
+    for (const i of batch) {
+      if (i.kind === 'status') await this.status(i.serial, i.online);
+      else if (i.kind === 'ack' && this.o.onConfigAck) await this.o.onConfigAck(i.serial, i.ack);
+    }
+  }
+
+  private async status(serial: string, online: boolean): Promise<void> {
+    const box = await this.o.boxes.get(serial);
+    if (!box) return this.reject(serial, 'unknown-serial', serial);
+    const at = new Date();
+    await this.o.models.Controller.update({ online, lastSeenAt: at }, { where: { id: box.controllerId } });
+    this.o.bus.emit('controller', { boxId: box.boxId, customerId: box.customerId, serial, online, at: at.toISOString() });
+  }
+
+  private ackAll(batch: Item[], gen: number): void {
+    const client = this.client;
+    if (!client || gen !== this.gen || !client.connected) return;
+    for (const i of batch) {
+      if (i.gen === gen && i.messageId !== undefined) (client as unknown as PrivateClient)._sendPacket({ cmd: 'puback', messageId: i.messageId });
+    }
+  }
+
+  /** The database failed: drop the connection unacknowledged, wait for the database, come back. */
+  private async outage(err: unknown): Promise<void> {
+    this.paused = true;
+    this.counts.outages++;
+    this.o.metrics.dbOutages.inc();
+    this.o.logger.error({ err: (err as Error)?.message }, 'database unavailable: ingest paused, the broker keeps the messages');
+    const old = this.client;
+    this.client = null;
+    this.gen++;
+    this.pending = [];
+    this.o.metrics.queueDepth.set(0);
+    if (old) await old.endAsync(true).catch(() => undefined);
+    do await new Promise((r) => setTimeout(r, 1000));
+    while (!this.stopped && !(await this.o.writer.ping()));
+    if (this.stopped) return;
+    this.paused = false;
+    this.o.logger.info('database is back: ingest reconnecting');
+    await this.connect().catch((e: unknown) => this.o.logger.error({ err: e }, 'ingest reconnect failed'));
+  }
+
+  private async touch(): Promise<void> {
+    const seen = this.lastSeen;
+    this.lastSeen = new Map();
+    await this.o.writer.touchControllers(seen).catch(() => {
+      for (const [k, v] of seen) this.lastSeen.set(k, Math.max(v, this.lastSeen.get(k) ?? 0));
+    });
+  }
+
+  /** Publishes through the ingest's connection (config/set, demo faults). */
+  async publish(topic: string, payload: string, opts: { qos?: 0 | 1; retain?: boolean } = {}): Promise<void> {
+    if (!this.client?.connected) throw new Error('not connected to the broker');
+    await this.client.publishAsync(topic, payload, { qos: opts.qos ?? 1, retain: opts.retain ?? false });
+  }
+
+  /** Waits until every received message is committed and acknowledged (tests, shutdown). */
+  async drain(timeoutMs = 10_000): Promise<void> {
+    const deadline = Date.now() + timeoutMs;
+    while ((this.pending.length > 0 || this.flushing) && Date.now() < deadline) {
+      this.kick();
+      await new Promise((r) => setTimeout(r, 20));
+    }
+  }
+
+  /** Flushes what it can, then disconnects (messages not yet acknowledged stay with the broker). */
+  async stop(): Promise<void> {
+    this.stopped = true;
+    if (this.touchTimer) clearInterval(this.touchTimer);
+    await this.drain(5000);
+    await this.touch();
+    const c = this.client;
+    this.client = null;
+    if (c) await c.endAsync().catch(() => undefined);
+  }
+}

@@ -1,0 +1,116 @@
+/** Read side of the telemetry: latest readings, fleet status, and charts at a resolution chosen from the span. */
+import { QueryTypes, type Sequelize } from 'sequelize';
+import type { FleetBoxStatus, ReadingDto, ReadingPoint, ReadingsResponse, Resolution } from '../../shared/schemas/live';
+import type { SessionUser } from '../../shared/schemas/auth';
+import { sqlTs } from './writer';
+
+const HOUR = 3_600_000;
+
+/**
+ * The resolution for a span: up to 6 h raw, up to 2 days 1-minute buckets, up to 31 days
+ * 15-minute buckets, beyond that hourly. A week's chart therefore reads 672 rollup rows, never raw.
+ */
+export function resolutionFor(spanMs: number): Exclude<Resolution, 'auto'> {
+  if (spanMs <= 6 * HOUR) return 'raw';
+  if (spanMs <= 48 * HOUR) return '1m';
+  if (spanMs <= 31 * 24 * HOUR) return '15m';
+  return '1h';
+}
+
+const TABLE = { '1m': 'readings_1m', '15m': 'readings_15m', '1h': 'readings_1h' } as const;
+const BUCKET_MS = { '1m': 60_000, '15m': 900_000, '1h': HOUR } as const;
+
+const iso = (s: string) => `${s.replace(' ', 'T').slice(0, 23)}${s.length > 19 ? '' : '.000'}Z`;
+
+/** Chart points of a box between from and to. */
+export async function readingsBetween(sequelize: Sequelize, boxId: number, from: Date, to: Date, requested: Resolution): Promise<ReadingsResponse> {
+  const resolution = requested === 'auto' ? resolutionFor(to.getTime() - from.getTime()) : requested;
+  let points: ReadingPoint[];
+  if (resolution === 'raw') {
+    const rows = await sequelize.query<Record<string, number | string | null>>(
+      `SELECT DATE_FORMAT(ts, '%Y-%m-%d %H:%i:%s.%f') AS ts, box_air_c, superheat_k, valve_percent, suction_kpa_g, compressor_on, defrost_on, door_open
+       FROM readings WHERE box_id = ? AND ts >= ? AND ts < ? ORDER BY ts LIMIT 20000`,
+      { replacements: [boxId, sqlTs(from.getTime()), sqlTs(to.getTime())], type: QueryTypes.SELECT },
+    );
+    points = rows.map((r) => ({
+      ts: iso(String(r.ts).slice(0, 23)),
+      boxAirMinC: Number(r.box_air_c),
+      boxAirAvgC: Number(r.box_air_c),
+      boxAirMaxC: Number(r.box_air_c),
+      superheatAvgK: r.superheat_k === null ? null : Number(r.superheat_k),
+      valveAvgPercent: r.valve_percent === null ? null : Number(r.valve_percent),
+      suctionAvgKPaG: Number(r.suction_kpa_g),
+      compressorDuty: Number(r.compressor_on),
+      defrostMin: 0,
+      doorOpenMin: 0,
+      samples: 1,
+    }));
+  } else {
+    const bucket = BUCKET_MS[resolution];
+    const fromBucket = Math.floor(from.getTime() / bucket) * bucket;
+    const rows = await sequelize.query<Record<string, number | string>>(
+      `SELECT DATE_FORMAT(bucket_start, '%Y-%m-%d %H:%i:%s') AS bucket, samples, box_air_min_c, box_air_max_c, box_air_sum_c, superheat_sum_k, superheat_n,
+              valve_sum_pct, valve_n, suction_sum_kpa_g, covered_ms, compressor_ms, defrost_ms, door_ms
+       FROM ${TABLE[resolution]} WHERE box_id = ? AND bucket_start >= ? AND bucket_start < ? ORDER BY bucket_start`,
+      { replacements: [boxId, sqlTs(fromBucket).slice(0, 19), sqlTs(to.getTime()).slice(0, 19)], type: QueryTypes.SELECT },
+    );
+    points = rows.map((r) => {
+      const samples = Number(r.samples);
+      const covered = Number(r.covered_ms);
+      return {
+        ts: iso(String(r.bucket)),
+        boxAirMinC: Number(r.box_air_min_c),
+        boxAirAvgC: Number(r.box_air_sum_c) / samples,
+        boxAirMaxC: Number(r.box_air_max_c),
+        superheatAvgK: Number(r.superheat_n) > 0 ? Number(r.superheat_sum_k) / Number(r.superheat_n) : null,
+        valveAvgPercent: Number(r.valve_n) > 0 ? Number(r.valve_sum_pct) / Number(r.valve_n) : null,
+        suctionAvgKPaG: Number(r.suction_sum_kpa_g) / samples,
+        compressorDuty: covered > 0 ? Number(r.compressor_ms) / covered : 0,
+        defrostMin: Number(r.defrost_ms) / 60_000,
+        doorOpenMin: Number(r.door_ms) / 60_000,
+        samples,
+      };
+    });
+  }
+  return { boxId, resolution, from: from.toISOString(), to: to.toISOString(), points };
+}
+
+/** The latest stored reading of a box, or null. */
+export async function latestReading(sequelize: Sequelize, boxId: number): Promise<ReadingDto | null> {
+  const rows = await sequelize.query<{ reading: string }>('SELECT reading FROM box_latest WHERE box_id = ?', { replacements: [boxId], type: QueryTypes.SELECT });
+  return rows[0] ? (JSON.parse(rows[0].reading) as ReadingDto) : null;
+}
+
+/** Latest state of every box the user may see. */
+export async function fleetStatus(sequelize: Sequelize, user: SessionUser): Promise<FleetBoxStatus[]> {
+  const scoped = user.role === 'manager';
+  const rows = await sequelize.query<Record<string, string | number | null>>(
+    `SELECT b.id AS box_id, b.name AS box_name, b.kind, b.valve_type, b.refrigerant, b.setpoint_c, b.high_limit_c, b.low_limit_c, b.superheat_target_k,
+            s.id AS site_id, s.name AS site_name, c.id AS customer_id, c.name AS customer_name,
+            ctl.serial, ctl.online, DATE_FORMAT(ctl.last_seen_at, '%Y-%m-%d %H:%i:%s.%f') AS last_seen, l.reading
+     FROM boxes b JOIN sites s ON s.id = b.site_id JOIN customers c ON c.id = b.customer_id
+     LEFT JOIN controllers ctl ON ctl.box_id = b.id LEFT JOIN box_latest l ON l.box_id = b.id
+     ${scoped ? 'WHERE b.customer_id = ?' : ''}
+     ORDER BY c.name, s.name, b.name`,
+    { replacements: scoped ? [user.customerId ?? 0] : [], type: QueryTypes.SELECT },
+  );
+  return rows.map((r) => ({
+    boxId: Number(r.box_id),
+    boxName: String(r.box_name),
+    kind: r.kind as FleetBoxStatus['kind'],
+    valveType: r.valve_type as FleetBoxStatus['valveType'],
+    refrigerant: String(r.refrigerant),
+    setpointC: Number(r.setpoint_c),
+    highLimitC: Number(r.high_limit_c),
+    lowLimitC: Number(r.low_limit_c),
+    superheatTargetK: Number(r.superheat_target_k),
+    siteId: Number(r.site_id),
+    siteName: String(r.site_name),
+    customerId: Number(r.customer_id),
+    customerName: String(r.customer_name),
+    controllerSerial: r.serial === null ? null : String(r.serial),
+    online: Number(r.online) === 1,
+    lastSeenAt: r.last_seen ? iso(String(r.last_seen).slice(0, 23)) : null,
+    latest: r.reading ? (JSON.parse(String(r.reading)) as ReadingDto) : null,
+  }));
+}

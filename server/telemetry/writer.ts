@@ -1,0 +1,246 @@
+/**
+ * The ingest's database writer: one transaction per batch stores the new raw readings (a
+ * re-delivered one is recognised by its (box, ts) key and skipped), adds them to the 1 min,
+ * 15 min and 1 h rollups and moves each box's latest reading forward. It talks to MariaDB through
+ * the mariadb driver's batch() (the ORM would cost ~3x here), with timestamps as UTC strings.
+ */
+import mariadb from 'mariadb';
+import type { Config } from '../config';
+import type { ConvertedReading } from './convert';
+
+/** A state is held until the next reading, but never credited for more than this (a gap is not data). */
+export const MAX_HOLD_MS = 60_000;
+
+export const ROLLUPS = [
+  { table: 'readings_1m', bucketMs: 60_000 },
+  { table: 'readings_15m', bucketMs: 15 * 60_000 },
+  { table: 'readings_1h', bucketMs: 3_600_000 },
+] as const;
+
+interface PrevState {
+  tsMs: number;
+  compressorOn: boolean;
+  defrostOn: boolean;
+  doorOpen: boolean;
+}
+
+interface Agg {
+  boxId: number;
+  bucketMs: number;
+  samples: number;
+  airMin: number;
+  airMax: number;
+  airSum: number;
+  shSum: number;
+  shN: number;
+  valveSum: number;
+  valveN: number;
+  suctionSum: number;
+  coveredMs: number;
+  compMs: number;
+  defrostMs: number;
+  doorMs: number;
+}
+
+/** `YYYY-MM-DD HH:MM:SS.mmm` in UTC for DATETIME(3). */
+export function sqlTs(ms: number): string {
+  return new Date(ms).toISOString().replace('T', ' ').slice(0, 23);
+}
+
+const RAW_SQL =
+  'INSERT IGNORE INTO readings (box_id, ts, seq, received_at, refrigerant, box_air_c, suction_kpa_g, suction_line_c, saturated_suction_c, superheat_k, coil_inlet_c, discharge_air_c, liquid_kpa_g, liquid_line_c, subcooling_k, valve_steps, valve_percent, compressor_on, fan_on, defrost_on, door_open) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)';
+
+const rollupSql = (table: string) =>
+  `INSERT INTO ${table} (box_id, bucket_start, samples, box_air_min_c, box_air_max_c, box_air_sum_c, superheat_sum_k, superheat_n, valve_sum_pct, valve_n, suction_sum_kpa_g, covered_ms, compressor_ms, defrost_ms, door_ms) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?) ON DUPLICATE KEY UPDATE samples = samples + VALUES(samples), box_air_min_c = LEAST(box_air_min_c, VALUES(box_air_min_c)), box_air_max_c = GREATEST(box_air_max_c, VALUES(box_air_max_c)), box_air_sum_c = box_air_sum_c + VALUES(box_air_sum_c), superheat_sum_k = superheat_sum_k + VALUES(superheat_sum_k), superheat_n = superheat_n + VALUES(superheat_n), valve_sum_pct = valve_sum_pct + VALUES(valve_sum_pct), valve_n = valve_n + VALUES(valve_n), suction_sum_kpa_g = suction_sum_kpa_g + VALUES(suction_sum_kpa_g), covered_ms = covered_ms + VALUES(covered_ms), compressor_ms = compressor_ms + VALUES(compressor_ms), defrost_ms = defrost_ms + VALUES(defrost_ms), door_ms = door_ms + VALUES(door_ms)`;
+
+const LATEST_SQL =
+  'INSERT INTO box_latest (box_id, ts, reading) VALUES (?,?,?) ON DUPLICATE KEY UPDATE reading = IF(VALUES(ts) >= ts, VALUES(reading), reading), ts = GREATEST(ts, VALUES(ts))';
+
+/** Doubles are sent as strings so the driver keeps one parameter type per column (STACK-NOTES §7). */
+const d = (x: number | null): string | null => (x === null ? null : String(x));
+const b = (x: boolean): number => (x ? 1 : 0);
+
+export interface FlushResult {
+  /** Readings that were new and are now stored. */
+  stored: ConvertedReading[];
+  duplicates: number;
+}
+
+/** True for deadlocks and lock-wait timeouts, which succeed when retried. */
+export function isTransientError(e: unknown): boolean {
+  const errno = (e as { errno?: number })?.errno;
+  return errno === 1213 || errno === 1205;
+}
+
+/** True for errors that mean the database is unreachable (as opposed to a bad statement). */
+export function isConnectionError(e: unknown): boolean {
+  const err = e as { fatal?: boolean; code?: string; sqlState?: string; errno?: number };
+  if (err?.fatal) return true;
+  if (typeof err?.sqlState === 'string' && err.sqlState.startsWith('08')) return true;
+  return ['ECONNREFUSED', 'ECONNRESET', 'ETIMEDOUT', 'EPIPE', 'ER_GET_CONNECTION_TIMEOUT', 'ER_CONNECTION_ALREADY_CLOSED', 'ER_SOCKET_UNEXPECTED_CLOSE', 'ER_POOL_ALREADY_CLOSED'].includes(err?.code ?? '');
+}
+
+export class ReadingWriter {
+  private pool: mariadb.Pool;
+  private prev = new Map<number, PrevState>();
+  private prevLoaded = false;
+
+  constructor(config: Config, connections = 2) {
+    this.pool = mariadb.createPool({
+      host: config.DB_HOST,
+      port: config.DB_PORT,
+      user: config.DB_USER,
+      password: config.DB_PASSWORD,
+      database: config.DB_NAME,
+      connectionLimit: connections,
+      acquireTimeout: 5000,
+      connectTimeout: 3000,
+      dateStrings: true,
+      timezone: 'Z',
+      initSql: "SET time_zone = '+00:00'",
+    });
+  }
+
+  /** True when a trivial query succeeds. */
+  async ping(): Promise<boolean> {
+    try {
+      await this.pool.query('SELECT 1');
+      return true;
+    } catch {
+      return false;
+    }
+  }
+
+  private async loadPrev(conn: mariadb.PoolConnection): Promise<void> {
+    if (this.prevLoaded) return;
+    const rows: Array<{ box_id: number; reading: string }> = await conn.query('SELECT box_id, reading FROM box_latest');
+    for (const r of rows) {
+      const x = JSON.parse(r.reading) as ConvertedReading;
+      this.prev.set(r.box_id, { tsMs: Date.parse(x.ts), compressorOn: x.compressorOn, defrostOn: x.defrostOn, doorOpen: x.doorOpen });
+    }
+    this.prevLoaded = true;
+  }
+
+  /** Stores a batch in one transaction; throws on failure (nothing of the batch is then committed). */
+  async flush(batch: ConvertedReading[], receivedAtMs = Date.now()): Promise<FlushResult> {
+    if (batch.length === 0) return { stored: [], duplicates: 0 };
+    const conn = await this.pool.getConnection();
+    try {
+      await this.loadPrev(conn);
+      // Unique within the batch first (the broker may deliver a message twice in one window).
+      const seen = new Set<string>();
+      const unique: ConvertedReading[] = [];
+      for (const r of batch) {
+        const k = `${r.boxId}|${r.ts}`;
+        if (!seen.has(k)) {
+          seen.add(k);
+          unique.push(r);
+        }
+      }
+      await conn.beginTransaction();
+      const placeholders = unique.map(() => '(?,?)').join(',');
+      const keyParams = unique.flatMap((r) => [r.boxId, sqlTs(Date.parse(r.ts))]);
+      const existing: Array<{ box_id: number; ts: string }> = await conn.query(`SELECT box_id, ts FROM readings WHERE (box_id, ts) IN (${placeholders})`, keyParams);
+      const existingKeys = new Set(existing.map((e) => `${e.box_id}|${e.ts.slice(0, 23)}`));
+      const fresh = unique.filter((r) => !existingKeys.has(`${r.boxId}|${sqlTs(Date.parse(r.ts))}`));
+      fresh.sort((a, c) => a.boxId - c.boxId || Date.parse(a.ts) - Date.parse(c.ts));
+      if (fresh.length > 0) {
+        const received = sqlTs(receivedAtMs);
+        await conn.batch(
+          RAW_SQL,
+          fresh.map((r) => [
+            r.boxId, sqlTs(Date.parse(r.ts)), r.seq, received, r.refrigerant, d(r.boxAirC), d(r.suctionKPaG), d(r.suctionLineC), d(r.saturatedSuctionC), d(r.superheatK),
+            d(r.coilInletC), d(r.dischargeAirC), d(r.liquidKPaG), d(r.liquidLineC), d(r.subcoolingK), r.valveSteps, d(r.valvePercent), b(r.compressorOn), b(r.fanOn), b(r.defrostOn), b(r.doorOpen),
+          ]),
+        );
+        const nextPrev = new Map(this.prev);
+        const aggs = ROLLUPS.map(() => new Map<string, Agg>());
+        for (const r of fresh) {
+          const tsMs = Date.parse(r.ts);
+          const p = nextPrev.get(r.boxId);
+          const dt = p && tsMs > p.tsMs ? Math.min(tsMs - p.tsMs, MAX_HOLD_MS) : 0;
+          ROLLUPS.forEach((roll, i) => {
+            const bucketMs = Math.floor(tsMs / roll.bucketMs) * roll.bucketMs;
+            const key = `${r.boxId}|${bucketMs}`;
+            const map = aggs[i];
+            if (!map) return;
+            let a = map.get(key);
+            if (!a) {
+              a = { boxId: r.boxId, bucketMs, samples: 0, airMin: r.boxAirC, airMax: r.boxAirC, airSum: 0, shSum: 0, shN: 0, valveSum: 0, valveN: 0, suctionSum: 0, coveredMs: 0, compMs: 0, defrostMs: 0, doorMs: 0 };
+              map.set(key, a);
+            }
+            a.samples++;
+            a.airMin = Math.min(a.airMin, r.boxAirC);
+            a.airMax = Math.max(a.airMax, r.boxAirC);
+            a.airSum += r.boxAirC;
+            if (r.superheatK !== null) {
+              a.shSum += r.superheatK;
+              a.shN++;
+            }
+            if (r.valvePercent !== null) {
+              a.valveSum += r.valvePercent;
+              a.valveN++;
+            }
+            a.suctionSum += r.suctionKPaG;
+            if (p && dt > 0) {
+              a.coveredMs += dt;
+              if (p.compressorOn) a.compMs += dt;
+              if (p.defrostOn) a.defrostMs += dt;
+              if (p.doorOpen) a.doorMs += dt;
+            }
+          });
+          if (!p || tsMs > p.tsMs) nextPrev.set(r.boxId, { tsMs, compressorOn: r.compressorOn, defrostOn: r.defrostOn, doorOpen: r.doorOpen });
+        }
+        for (let i = 0; i < ROLLUPS.length; i++) {
+          const roll = ROLLUPS[i];
+          const map = aggs[i];
+          if (!roll || !map) continue;
+          await conn.batch(
+            rollupSql(roll.table),
+            [...map.values()].map((a) => [
+              a.boxId, sqlTs(a.bucketMs).slice(0, 19), a.samples, d(a.airMin), d(a.airMax), d(a.airSum), d(a.shSum), a.shN, d(a.valveSum), a.valveN, d(a.suctionSum), a.coveredMs, a.compMs, a.defrostMs, a.doorMs,
+            ]),
+          );
+        }
+        const newest = new Map<number, ConvertedReading>();
+        for (const r of fresh) {
+          const cur = newest.get(r.boxId);
+          if (!cur || Date.parse(r.ts) > Date.parse(cur.ts)) newest.set(r.boxId, r);
+        }
+        await conn.batch(
+          LATEST_SQL,
+          [...newest.values()].map((r) => [r.boxId, sqlTs(Date.parse(r.ts)), JSON.stringify(toDto(r))]),
+        );
+        await conn.commit();
+        this.prev = nextPrev;
+      } else {
+        await conn.commit();
+      }
+      return { stored: fresh, duplicates: batch.length - fresh.length };
+    } catch (e) {
+      await conn.rollback().catch(() => undefined);
+      throw e;
+    } finally {
+      await conn.release().catch(() => undefined);
+    }
+  }
+
+  /** Records when controllers were last heard from. */
+  async touchControllers(lastSeen: Map<number, number>): Promise<void> {
+    if (lastSeen.size === 0) return;
+    await this.pool.batch(
+      'UPDATE controllers SET last_seen_at = GREATEST(COALESCE(last_seen_at, ?), ?) WHERE id = ?',
+      [...lastSeen.entries()].map(([id, ms]) => [sqlTs(ms), sqlTs(ms), id]),
+    );
+  }
+
+  async close(): Promise<void> {
+    await this.pool.end().catch(() => undefined);
+  }
+}
+
+/** The API/WebSocket form of a stored reading. */
+export function toDto(r: ConvertedReading): import('../../shared/schemas/live').ReadingDto {
+  const { boxId: _b, refrigerant: _r, conversionNote: _n, ...dto } = r;
+  return dto;
+}
