@@ -111,7 +111,7 @@ export class EmbeddedBroker {
       }
     });
     aedes.on('ack', (packet, client) => {
-      if (client && this.principals.get(client)?.kind === 'ingest' && 'topic' in packet && typeof packet.topic === 'string' && packet.topic.endsWith('/telemetry')) {
+      if (client && packet && this.principals.get(client)?.kind === 'ingest' && 'topic' in packet && typeof packet.topic === 'string' && packet.topic.endsWith('/telemetry')) {
         this.ingestQueueDepth = Math.max(0, this.ingestQueueDepth - 1);
         o.metrics.brokerQueueDepth.set(this.ingestQueueDepth);
       }

@@ -1,0 +1,136 @@
+/**
+ * The defrost cycle of a box controller: scheduled start, termination on coil temperature or on the
+ * time limit (fail-safe), drip time, then a fan delay until the coil is cold again.
+ * TRADE-NOTES §2: off-cycle for coolers (ACHR 110983); electric for freezers ending near 10 °C coil
+ * with a 35–45 min fail-safe (hvacfun; walk-in I&O manual); fans back at about −4 °C coil.
+ */
+import type { DefrostType } from '../../shared/domain';
+
+export type DefrostPhase = 'none' | 'defrost' | 'drip' | 'fan-delay';
+export type DefrostEndReason = 'temperature' | 'time';
+
+export interface DefrostConfig {
+  defrostType: DefrostType;
+  defrostIntervalH: number;
+  defrostMaxMin: number;
+  defrostTerminationC: number;
+  dripMin: number;
+  fanDelayMin: number;
+  /** Coil temperature at which the fans restart after a heated defrost, °C. */
+  fanStartCoilC: number;
+}
+
+/** A finished defrost, for tests and logs (model seconds). */
+export interface DefrostRecord {
+  startS: number;
+  endS: number;
+  reason: DefrostEndReason;
+  maxCoilC: number;
+  dripEndS?: number;
+  fanDelayEndS?: number;
+}
+
+/** What the defrost cycle demands of the outputs this step. */
+export interface DefrostOutputs {
+  phase: DefrostPhase;
+  /** Heaters (or hot gas) on: heated defrost, once the pump-down has stopped the compressor. */
+  heat: boolean;
+  /** Fans allowed to run. */
+  fans: boolean;
+  /** Compressor locked out (the defrost timer opens its circuit). */
+  lockout: boolean;
+  /** Liquid feed forced closed (defrost, drip) or forced open (fan delay: pull the coil down). */
+  feed: 'closed' | 'open' | 'normal';
+  /** What the controller reports as defrostOn. */
+  defrostOn: boolean;
+}
+
+/** The defrost state machine; step() is called once per model step. */
+export class DefrostCycle {
+  phase: DefrostPhase = 'none';
+  nextStartS: number;
+  readonly history: DefrostRecord[] = [];
+  private phaseStartS = 0;
+  private current: DefrostRecord | null = null;
+
+  constructor(
+    public config: DefrostConfig,
+    firstStartS: number,
+  ) {
+    this.nextStartS = firstStartS;
+  }
+
+  /** Starts a defrost now (manual or test); ignored while one is running. */
+  startNow(tS: number): void {
+    if (this.phase === 'none') this.begin(tS);
+  }
+
+  /** Advances the cycle to tS given the coil temperature (°C) as the controller reads it; null when its sensor has failed. */
+  step(tS: number, coilC: number | null, compressorOn: boolean): DefrostOutputs {
+    const c = this.config;
+    const elapsedS = tS - this.phaseStartS;
+    if (this.phase === 'none' && tS >= this.nextStartS) this.begin(tS);
+    else if (this.phase === 'defrost' && this.current) {
+      if (coilC !== null) this.current.maxCoilC = Math.max(this.current.maxCoilC, coilC);
+      const heatedOrReachable = coilC !== null && coilC >= c.defrostTerminationC;
+      if (heatedOrReachable) this.endDefrost(tS, 'temperature');
+      else if (elapsedS >= c.defrostMaxMin * 60) this.endDefrost(tS, 'time');
+    } else if (this.phase === 'drip' && elapsedS >= c.dripMin * 60) {
+      if (this.current) this.current.dripEndS = tS;
+      if (this.heated() && c.fanDelayMin > 0) this.enter('fan-delay', tS);
+      else this.finish(tS);
+    } else if (this.phase === 'fan-delay') {
+      const cold = coilC !== null && coilC <= c.fanStartCoilC;
+      if (cold || elapsedS >= c.fanDelayMin * 60) {
+        if (this.current) this.current.fanDelayEndS = tS;
+        this.finish(tS);
+      }
+    }
+    return this.outputs(compressorOn);
+  }
+
+  private heated(): boolean {
+    return this.config.defrostType !== 'off-cycle';
+  }
+
+  private begin(tS: number): void {
+    this.current = { startS: tS, endS: Number.NaN, reason: 'time', maxCoilC: Number.NEGATIVE_INFINITY };
+    this.nextStartS = tS + this.config.defrostIntervalH * 3600;
+    this.enter('defrost', tS);
+  }
+
+  private endDefrost(tS: number, reason: DefrostEndReason): void {
+    if (this.current) {
+      this.current.endS = tS;
+      this.current.reason = reason;
+    }
+    if (this.config.dripMin > 0) this.enter('drip', tS);
+    else if (this.heated() && this.config.fanDelayMin > 0) this.enter('fan-delay', tS);
+    else this.finish(tS);
+  }
+
+  private finish(tS: number): void {
+    if (this.current) this.history.push(this.current);
+    this.current = null;
+    this.enter('none', tS);
+  }
+
+  private enter(phase: DefrostPhase, tS: number): void {
+    this.phase = phase;
+    this.phaseStartS = tS;
+  }
+
+  private outputs(compressorOn: boolean): DefrostOutputs {
+    const heated = this.heated();
+    switch (this.phase) {
+      case 'none':
+        return { phase: 'none', heat: false, fans: true, lockout: false, feed: 'normal', defrostOn: false };
+      case 'defrost':
+        return { phase: 'defrost', heat: heated && !compressorOn, fans: !heated, lockout: true, feed: 'closed', defrostOn: true };
+      case 'drip':
+        return { phase: 'drip', heat: false, fans: !heated, lockout: true, feed: 'closed', defrostOn: true };
+      case 'fan-delay':
+        return { phase: 'fan-delay', heat: false, fans: false, lockout: false, feed: 'open', defrostOn: false };
+    }
+  }
+}

@@ -1,0 +1,85 @@
+/**
+ * Quasi-static evaporator: where the low side settles for a given valve feed, coil conductance and
+ * box air temperature. The box model lets its pressure and suction-line states approach these
+ * targets with time constants, so the loop dynamics still show.
+ *
+ * Mass balance: at steady state the compressor removes exactly the vapour the valve feeds. The
+ * compressor's mass flow is proportional to suction vapour density, which for a fixed superheat is
+ * close to proportional to absolute suction pressure (ideal gas), so
+ *   Q_comp(P) = ratedW · P / P_rated.
+ * Heat balance: the wetted part of the tubes boils the feed, Q = UA · w · (T_metal − T_mean), where w
+ * is the wetted fraction, T_metal the coil metal temperature and T_mean the mid-point of dew and
+ * bubble (TRADE-NOTES §3: mid-point for the evaporator TD). The dry remainder superheats the vapour.
+ */
+import type { Fluid } from './fluid';
+
+/** Number of transfer units of the gas-side (superheating) part of the coil when it is all dry. */
+export const SUPERHEAT_NTU = 4;
+/** Vapour sensible heat per kelvin of superheat as a fraction of latent heat (cp ≈ 0.9 kJ/(kg·K), h_fg ≈ 180 kJ/kg). */
+const SENSIBLE_PER_K = 0.005;
+
+export interface EvaporatorInput {
+  fluid: Fluid;
+  /** Coil metal temperature, the heat source of the boiling refrigerant, °C. */
+  sourceC: number;
+  /** Refrigerant-side conductance of the tubes, W/K. */
+  uaWPerK: number;
+  /** Refrigerating effect the valve feeds, W (latent heat of the liquid it passes). */
+  feedW: number;
+  compressorRatedW: number;
+  ratedKPaAbs: number;
+}
+
+export interface EvaporatorState {
+  /** Suction pressure the low side settles at, kPa abs. */
+  targetKPaAbs: number;
+  /** Evaporator-outlet superheat, K (0 when liquid floods back). */
+  superheatK: number;
+  /** Heat the refrigerant takes from the coil metal, W. */
+  fromCoilW: number;
+  /** True when the coil cannot boil all the feed (floodback). */
+  flooded: boolean;
+}
+
+/** Mid-point refrigerant temperature in the coil at an absolute pressure, °C. */
+export function meanCoilC(fluid: Fluid, kPaAbs: number): number {
+  return 0.5 * (fluid.dewC(kPaAbs) + fluid.bubbleC(kPaAbs));
+}
+
+/** Refrigerant temperature at the coil inlet, °C: just past the valve the mix is mostly liquid, so near the bubble point (a quarter of the way to dew). */
+export function coilInletC(fluid: Fluid, kPaAbs: number): number {
+  const bubble = fluid.bubbleC(kPaAbs);
+  return bubble + 0.25 * (fluid.dewC(kPaAbs) - bubble);
+}
+
+/** Superheat from the dry fraction of the coil, K, given the air-to-dew span in K. */
+export function superheatFromDryFraction(spanK: number, dryFraction: number): number {
+  return Math.max(0, spanK) * (1 - Math.exp(-SUPERHEAT_NTU * Math.max(0, Math.min(1, dryFraction))));
+}
+
+/** Steady low side for the input (pressure target, superheat, heat from air). */
+export function solveEvaporator(input: EvaporatorInput): EvaporatorState {
+  const { fluid, sourceC, uaWPerK, compressorRatedW, ratedKPaAbs } = input;
+  const floorKPa = fluid.minKPaAbs * 1.02;
+  const feedW = Math.max(0, input.feedW);
+  const feedKPa = Math.max(floorKPa, (ratedKPaAbs * feedW) / compressorRatedW);
+  const span = sourceC - fluid.dewC(feedKPa);
+  const potentialW = uaWPerK * Math.max(0, sourceC - meanCoilC(fluid, feedKPa));
+  if (feedW <= 0) return { targetKPaAbs: floorKPa, superheatK: superheatFromDryFraction(span, 1), fromCoilW: 0, flooded: false };
+  if (potentialW > feedW) {
+    const dry = 1 - feedW / potentialW;
+    const sh = superheatFromDryFraction(span, dry);
+    return { targetKPaAbs: feedKPa, superheatK: sh, fromCoilW: feedW * (1 + SENSIBLE_PER_K * sh), flooded: false };
+  }
+  // Flooded: the coil, not the valve, limits. Find P where compressor flow = UA · (T_air − T_mean(P)).
+  let lo = floorKPa;
+  let hi = Math.max(feedKPa, floorKPa * 1.01);
+  const excess = (p: number) => (compressorRatedW * p) / ratedKPaAbs - uaWPerK * Math.max(0, sourceC - meanCoilC(fluid, p));
+  for (let i = 0; i < 40; i++) {
+    const mid = 0.5 * (lo + hi);
+    if (excess(mid) > 0) hi = mid;
+    else lo = mid;
+  }
+  const p = 0.5 * (lo + hi);
+  return { targetKPaAbs: p, superheatK: 0, fromCoilW: (compressorRatedW * p) / ratedKPaAbs, flooded: true };
+}

@@ -1,0 +1,50 @@
+/**
+ * Faults the simulator can inject, each producing the trend signature a technician reads
+ * (TRADE-NOTES §4 table; see simulator/README.md for what each one does to the model).
+ */
+export const FAULT_NAMES = [
+  'low-charge',
+  'iced-coil',
+  'evap-fan-failed',
+  'defrost-heater-failed',
+  'door-ajar',
+  'thermistor-open',
+  'thermistor-shorted',
+  'valve-leak-through',
+  'short-cycling',
+  'offline',
+] as const;
+export type FaultName = (typeof FAULT_NAMES)[number];
+
+/** Thermistor inputs a sensor fault can hit (telemetry field names). */
+export const THERMISTOR_NAMES = ['boxAirC', 'suctionLineC', 'coilInletC', 'dischargeAirC', 'liquidLineC'] as const;
+export type ThermistorName = (typeof THERMISTOR_NAMES)[number];
+
+/** An open NTC reads off-scale cold, a shorted one off-scale hot: the ends of the telemetry range, °C. */
+export const OPEN_THERMISTOR_C = -60;
+export const SHORTED_THERMISTOR_C = 130;
+
+/** The thermistor a sensor fault hits when none is named. */
+export const DEFAULT_FAULT_THERMISTOR: ThermistorName = 'suctionLineC';
+
+/** Fraction of the valve's full feed that still reaches the coil with a low charge (flash gas in the liquid line). */
+export const LOW_CHARGE_LIQUID_FRACTION = 0.25;
+/** Subcooling left with a low charge, K (TRADE-NOTES §4: subcooling low). */
+export const LOW_CHARGE_SUBCOOLING_K = 0.5;
+/** Coil air path blocked by ice once an iced-coil fault has fully built up, fraction, and its build-up time, s. */
+export const ICED_COIL_BLOCKED_FRACTION = 0.95;
+export const ICED_COIL_BUILD_S = 7200;
+/** Liquid passing a closed valve seat, as a fraction of compressor capacity. */
+export const LEAK_THROUGH_FRACTION = 0.1;
+/** A door left ajar passes this fraction of the air of a fully open door. */
+export const DOOR_AJAR_FRACTION = 0.6;
+/** Short cycling: the low-pressure control set so tight that it opens within a minute of each start. */
+export const SHORT_CYCLE_CUTOUT_BELOW_SETPOINT_K = 2;
+export const SHORT_CYCLE_LP_DIFFERENTIAL_KPA = 15;
+export const SHORT_CYCLE_DIFFERENTIAL_K = 0.3;
+
+/** One active fault: when it started (model seconds) and, for sensor faults, which thermistor. */
+export interface ActiveFault {
+  sinceS: number;
+  sensor?: ThermistorName;
+}
