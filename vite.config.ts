@@ -28,10 +28,15 @@ export default defineConfig({
     chunkSizeWarningLimit: 1200,
     rollupOptions: {
       output: {
-        manualChunks(id: string) {
-          if (id.includes('node_modules/echarts') || id.includes('node_modules/zrender') || id.includes('vue-echarts')) return 'charts';
-          if (id.includes('node_modules/naive-ui') || id.includes('node_modules/vueuc') || id.includes('node_modules/css-render')) return 'ui';
-          return undefined;
+        // Groups (rolldown): a group also captures its modules' dependencies, so Vue, the router and
+        // Pinia get their own top-priority chunk; otherwise Vue landed in 'charts' via vue-echarts and
+        // the whole ECharts bundle was preloaded on every page.
+        codeSplitting: {
+          groups: [
+            { name: 'vue', test: /node_modules[\\/](@vue|vue|vue-router|pinia)[\\/]/, priority: 30 },
+            { name: 'ui', test: /node_modules[\\/](naive-ui|vueuc|css-render|@css-render)[\\/]/, priority: 20 },
+            { name: 'charts', test: /node_modules[\\/](echarts|zrender|vue-echarts)[\\/]/, priority: 10 },
+          ],
         },
       },
     },

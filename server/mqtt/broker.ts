@@ -38,6 +38,8 @@ export interface BrokerOptions {
 type Principal = { kind: 'controller'; serial: string } | { kind: 'ingest' } | { kind: 'sim' };
 
 const CONTROLLER_PUBLISH = new Set(['telemetry', 'status', 'config/ack']);
+/** The ingest acknowledged nothing for this long while telemetry waits: treat its session as stalled. */
+const STALL_MS = 5000;
 
 function authError(code: 4 | 5, message: string): AuthenticateError {
   const err = new Error(message) as AuthenticateError;
@@ -61,6 +63,10 @@ export class EmbeddedBroker {
   /** Telemetry published by controllers and not yet acknowledged by the ingest. */
   private ingestQueueDepth = 0;
   private readonly onRevoked = ({ serial }: { serial: string }) => this.kick(serial);
+  private lastIngestAckAt = Date.now();
+  private watchdog: NodeJS.Timeout | null = null;
+  /** Times the stall watchdog had to reconnect the ingest. */
+  stallRecoveries = 0;
   port = 0;
 
   constructor(private readonly o: BrokerOptions) {}
@@ -113,16 +119,31 @@ export class EmbeddedBroker {
     aedes.on('ack', (packet, client) => {
       if (client && packet && this.principals.get(client)?.kind === 'ingest' && 'topic' in packet && typeof packet.topic === 'string' && packet.topic.endsWith('/telemetry')) {
         this.ingestQueueDepth = Math.max(0, this.ingestQueueDepth - 1);
+        this.lastIngestAckAt = Date.now();
         o.metrics.brokerQueueDepth.set(this.ingestQueueDepth);
       }
     });
     aedes.on('clientReady', (client) => {
-      if (this.principals.get(client)?.kind === 'controller') o.metrics.connectedControllers.inc();
+      const kind = this.principals.get(client)?.kind;
+      if (kind === 'controller') o.metrics.connectedControllers.inc();
+      if (kind === 'ingest') {
+        // aedes now replays the session's stored queue; those redeliveries are not counted again.
+        this.ingestQueueDepth = 0;
+        this.lastIngestAckAt = Date.now();
+      }
     });
+    // Seen under load with aedes 1.2 + aedes-persistence-level 9.2: a few QoS 1 messages stay in the
+    // ingest session's stored queue, undelivered, until the session reconnects. When telemetry is
+    // waiting and the ingest has acknowledged nothing for STALL_MS, drop its connection: it comes
+    // straight back (clean: false) and the broker replays the stored queue.
+    this.watchdog = setInterval(() => this.checkStall(), 1000);
+    this.watchdog.unref();
     aedes.on('clientDisconnect', (client) => {
       if (this.principals.get(client)?.kind === 'controller') o.metrics.connectedControllers.dec();
     });
-    aedes.on('clientError', (client, err) => o.logger.debug({ clientId: client.id, err: err.message }, 'mqtt client error'));
+    aedes.on('clientError', (client, err) => {
+      o.logger.debug({ clientId: client.id, err: err.message }, 'mqtt client error');
+    });
     this.aedes = aedes;
     o.bus.on('controllerRevoked', this.onRevoked);
 
@@ -189,6 +210,17 @@ export class EmbeddedBroker {
     return topic === `${TOPIC_PREFIX}/${p.serial}/config/set`;
   }
 
+  private checkStall(): void {
+    if (this.ingestQueueDepth === 0 || Date.now() - this.lastIngestAckAt < STALL_MS) return;
+    const clients = (this.aedes as unknown as { clients?: Record<string, Client> } | null)?.clients ?? {};
+    const ingest = Object.values(clients).find((c) => this.principals.get(c)?.kind === 'ingest');
+    if (!ingest) return;
+    this.stallRecoveries++;
+    this.o.logger.warn({ waiting: this.ingestQueueDepth }, 'ingest session stalled with telemetry waiting: reconnecting it to replay its stored queue');
+    this.lastIngestAckAt = Date.now();
+    ingest.close();
+  }
+
   /** Drops a controller's connection (disabled or secret rotated). */
   kick(serial: string): void {
     const clients = (this.aedes as unknown as { clients?: Record<string, Client> } | null)?.clients;
@@ -199,6 +231,7 @@ export class EmbeddedBroker {
   /** Stops the listener and the broker and closes the store. */
   async stop(): Promise<void> {
     this.o.bus.off('controllerRevoked', this.onRevoked);
+    if (this.watchdog) clearInterval(this.watchdog);
     const server = this.server;
     const aedes = this.aedes;
     this.server = null;

@@ -23,12 +23,23 @@ export class BoxCache {
     bus.on('controllerRevoked', this.onRevoked);
   }
 
-  /** The box of a controller serial, or null when no such controller exists. */
-  async get(serial: string): Promise<BoxInfo | null> {
+  private loading = new Map<string, Promise<BoxInfo | null>>();
+
+  /** The box of a controller serial, or null when no such controller exists (one query per serial at a time). */
+  get(serial: string): Promise<BoxInfo | null> {
     const hit = this.bySerial.get(serial);
-    if (hit) return hit;
+    if (hit) return Promise.resolve(hit);
     const miss = this.unknown.get(serial);
-    if (miss && Date.now() - miss < NEGATIVE_TTL_MS) return null;
+    if (miss && Date.now() - miss < NEGATIVE_TTL_MS) return Promise.resolve(null);
+    let p = this.loading.get(serial);
+    if (!p) {
+      p = this.load(serial).finally(() => this.loading.delete(serial));
+      this.loading.set(serial, p);
+    }
+    return p;
+  }
+
+  private async load(serial: string): Promise<BoxInfo | null> {
     const ctl = await this.models.Controller.findOne({
       where: { serial },
       include: [{ model: this.models.Box, as: 'box', include: [{ model: this.models.Site, as: 'site' }] }],

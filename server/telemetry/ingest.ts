@@ -38,7 +38,9 @@ type Item =
   | { kind: 'reading'; messageId: number | undefined; gen: number; reading: ConvertedReading; controllerId: number; customerId: number }
   | { kind: 'status'; messageId: number | undefined; gen: number; serial: string; online: boolean }
   | { kind: 'ack'; messageId: number | undefined; gen: number; serial: string; ack: ConfigAckPayload }
-  | { kind: 'none'; messageId: number | undefined; gen: number };
+  | { kind: 'none'; messageId: number | undefined; gen: number }
+  /** Waiting for the box lookup of a cold cache; never part of a batch until resolved. */
+  | { kind: 'lookup'; messageId: number | undefined; gen: number; done: Promise<void> };
 
 /** Thrown into mqtt.js's handleMessage callback: it skips its own PUBACK, we send ours after the commit. */
 const DEFER = new Error('ack deferred until commit');
@@ -187,20 +189,27 @@ export class Ingest {
       return this.enqueue({ kind: 'none', messageId, gen });
     }
     // The box lookup is async on a cold cache: hold the slot so acks stay in order.
-    const slot: Item = { kind: 'none', messageId, gen };
-    this.enqueue(slot);
     const data = r.data;
     const serial = t.serial;
-    const resolved = this.o.boxes.get(serial).then((box) => {
-      if (!box) return this.reject(serial, 'unknown-serial', serial);
-      if (box.disabled) return this.reject(serial, 'disabled', serial);
-      Object.assign(slot, { kind: 'reading', reading: convertReading(data, box), controllerId: box.controllerId, customerId: box.customerId });
-    });
-    this.lookups.add(resolved);
-    void resolved.catch((err: unknown) => this.o.logger.error({ err }, 'box lookup failed')).finally(() => this.lookups.delete(resolved));
+    const slot = { kind: 'lookup', messageId, gen } as Item & { done?: Promise<void> };
+    slot.done = this.o.boxes.get(serial).then(
+      (box) => {
+        if (!box) {
+          this.reject(serial, 'unknown-serial', serial);
+          Object.assign(slot, { kind: 'none' });
+        } else if (box.disabled) {
+          this.reject(serial, 'disabled', serial);
+          Object.assign(slot, { kind: 'none' });
+        } else Object.assign(slot, { kind: 'reading', reading: convertReading(data, box), controllerId: box.controllerId, customerId: box.customerId });
+      },
+      (err: unknown) => {
+        // The database is failing: leave the message unacknowledged; the outage path reconnects.
+        this.o.logger.error({ err }, 'box lookup failed');
+        Object.assign(slot, { kind: 'none', messageId: undefined });
+      },
+    );
+    this.enqueue(slot);
   }
-
-  private lookups = new Set<Promise<void>>();
 
   private enqueue(item: Item): void {
     this.pending.push(item);
@@ -223,8 +232,14 @@ export class Ingest {
   private async flushLoop(): Promise<void> {
     let attempt = 0;
     while (this.pending.length > 0 && !this.paused) {
-      if (this.lookups.size > 0) await Promise.allSettled([...this.lookups]);
-      const batch = this.pending.slice(0, this.batchSize);
+      // A batch ends before the first message still waiting for its box lookup.
+      const head = this.pending[0];
+      if (head?.kind === 'lookup') {
+        await head.done;
+        continue;
+      }
+      const waiting = this.pending.findIndex((i) => i.kind === 'lookup');
+      const batch = this.pending.slice(0, Math.min(this.batchSize, waiting < 0 ? this.pending.length : waiting));
       const gen = this.gen;
       const readings = batch.filter((i): i is Extract<Item, { kind: 'reading' }> => i.kind === 'reading' && i.gen === gen);
       const t0 = performance.now();

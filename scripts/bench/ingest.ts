@@ -1,0 +1,220 @@
+/**
+ * npm run bench:ingest — the telemetry pipeline's throughput and latency, measured on this machine
+ * in one run together with the two ceilings it is bounded by:
+ *   1. MariaDB alone: driver batch() inserts of 1000 rows into a copy of the readings table;
+ *   2. broker alone: QoS 1 publishes through the embedded broker (same persistence and ACL) to one
+ *      subscriber that does no work;
+ *   3. the pipeline: the real server (broker → ingest → MariaDB → WebSocket) with many lightweight
+ *      controller connections, then the count check: published = stored, none stored twice.
+ * Everything runs on 127.0.0.1 with its own MariaDB instance (.data/mariadb-bench).
+ * Options: BENCH_SECONDS (default 20), BENCH_CONTROLLERS (default 400), BENCH_WINDOW (in-flight per connection, default 4).
+ */
+import { spawn } from 'node:child_process';
+import { randomBytes } from 'node:crypto';
+import { mkdtempSync } from 'node:fs';
+import net from 'node:net';
+import os from 'node:os';
+import path from 'node:path';
+import mariadb from 'mariadb';
+import mqtt from 'mqtt';
+import { QueryTypes } from 'sequelize';
+import { MariaInstance } from '../lib/mariadb';
+
+process.env.TZ = 'UTC';
+const root = path.resolve(path.dirname(new URL(import.meta.url).pathname), '..', '..');
+const SECONDS = Number(process.env.BENCH_SECONDS ?? 20);
+const CONTROLLERS = Number(process.env.BENCH_CONTROLLERS ?? 400);
+const WINDOW = Number(process.env.BENCH_WINDOW ?? 4);
+
+async function freePort(start: number): Promise<number> {
+  for (let p = start; p < start + 50; p++) {
+    const ok = await new Promise<boolean>((resolve) => {
+      const s = net.createServer().once('error', () => resolve(false)).listen(p, '127.0.0.1', () => s.close(() => resolve(true)));
+    });
+    if (ok) return p;
+  }
+  throw new Error('no free port');
+}
+
+function runLoad(argv: string[], onReady?: () => void): Promise<Record<string, unknown>> {
+  return new Promise((resolve, reject) => {
+    const child = spawn(process.execPath, [path.join(root, 'node_modules', 'tsx', 'dist', 'cli.mjs'), path.join(root, 'scripts', 'bench', 'load.ts'), ...argv], {
+      stdio: ['ignore', 'pipe', 'inherit'],
+      env: { ...process.env, TZ: 'UTC' },
+    });
+    let out = '';
+    child.stdout.on('data', (d: Buffer) => {
+      out += d.toString();
+      if (onReady && out.includes('ready\n')) {
+        const cb = onReady;
+        onReady = undefined;
+        cb();
+      }
+    });
+    child.on('exit', (code) => {
+      const last = out.trim().split('\n').pop() ?? '';
+      if (code !== 0) return reject(new Error(`load generator exited ${code}`));
+      resolve(JSON.parse(last) as Record<string, unknown>);
+    });
+  });
+}
+
+const port = await freePort(3310);
+const db = { name: 'rimehold_bench', user: 'rimehold_bench', password: randomBytes(18).toString('base64url') };
+const instance = new MariaInstance({ dataDir: path.join(root, '.data', `mariadb-bench-${port}`), port, bufferPoolMiB: 1024, redoLogMiB: 512, log: () => {} });
+await instance.start();
+instance.ensureAppDatabase(db);
+instance.resetDatabase(db.name);
+Object.assign(process.env, {
+  NODE_ENV: 'test', DB_HOST: '127.0.0.1', DB_PORT: String(port), DB_NAME: db.name, DB_USER: db.user, DB_PASSWORD: db.password, DB_EXTERNAL: '1',
+  PORT: '0', MQTT_PORT: '0', SMTP_FAKE: '0', LOG_LEVEL: 'warn', DEMO_MODE: '0', SESSION_SECRET: randomBytes(24).toString('base64url'),
+  MQTT_PERSISTENCE_DIR: mkdtempSync(path.join(os.tmpdir(), 'rimehold-bench-broker-')),
+});
+
+const { loadConfig } = await import('../../server/config');
+const { createSequelize } = await import('../../server/db/sequelize');
+const { migrateUp } = await import('../../server/db/migrate');
+const { startServer } = await import('../../server/main');
+const { hashDeviceSecret } = await import('../../server/controllers/secrets');
+const { hashSecret } = await import('../../server/auth/passwords');
+const { sqlTs } = await import('../../server/telemetry/writer');
+const { EmbeddedBroker } = await import('../../server/mqtt/broker');
+const { EventBus } = await import('../../server/events/bus');
+const { createTelemetryMetrics } = await import('../../server/telemetry/metrics');
+const config = loadConfig();
+const results: Record<string, unknown> = { machine: `${os.cpus().length} cores, ${Math.round(os.totalmem() / 2 ** 30)} GiB`, seconds: SECONDS, controllers: CONTROLLERS };
+
+try {
+  const sequelize = createSequelize(config);
+  await migrateUp(sequelize);
+  await sequelize.close();
+
+  // 1. MariaDB alone.
+  {
+    const pool = mariadb.createPool({ host: '127.0.0.1', port, user: db.user, password: db.password, database: db.name, connectionLimit: 2 });
+    await pool.query('CREATE TABLE bench_rows LIKE readings');
+    await pool.query('ALTER TABLE bench_rows REMOVE PARTITIONING');
+    const t0 = performance.now();
+    let rows = 0;
+    const base = Date.now() - 3_600_000;
+    while (performance.now() - t0 < 5000) {
+      const batch = Array.from({ length: 1000 }, (_, i) => {
+        const n = rows + i;
+        return [n % 1000, sqlTs(base + Math.floor(n / 1000) * 10), String(n), sqlTs(base), 'R-448A', String(2.5), String(250), String(-2), String(-9.1), String(7.1), null, null, null, null, null, 700, String(43.75), 1, 1, 0, 0];
+      });
+      await pool.batch('INSERT INTO bench_rows VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)', batch);
+      rows += 1000;
+    }
+    const s = (performance.now() - t0) / 1000;
+    results.dbAloneRowsPerS = Math.round(rows / s);
+    await pool.query('DROP TABLE bench_rows');
+    await pool.end();
+  }
+
+  // Provision the bench fleet.
+  const srv = await startServer(config, { batchSize: 1000, batchWindowMs: 25 });
+  const { models } = srv.ctx;
+  const customer = await models.Customer.create({ name: 'Bench Customer', contactName: null, contactEmail: null, contactPhone: null, notes: null });
+  const site = await models.Site.create({ customerId: customer.id, name: 'Bench Site', address: null, timeZone: 'UTC', elevationM: 0 });
+  const secret = 'bench-secret-' + randomBytes(8).toString('hex');
+  const creds: Array<{ serial: string; secret: string }> = [];
+  for (let i = 0; i < CONTROLLERS; i++) {
+    const box = await models.Box.create({
+      siteId: site.id, customerId: customer.id, name: `Bench box ${i}`, kind: 'cooler', setpointC: 2, differentialK: 1.5, highLimitC: 5, lowLimitC: 0, alarmDelayMin: 45, doorAlarmDelayMin: 5,
+      refrigerant: 'R-448A', valveType: 'eev', saturationMethod: 'pressure', superheatTargetK: 3.3, defrostType: 'off-cycle', defrostIntervalH: 6, defrostMaxMin: 40, defrostTerminationC: 5, dripMin: 2, fanDelayMin: 0,
+    });
+    const serial = `B${String(i).padStart(5, '0')}`;
+    await models.Controller.create({ boxId: box.id, serial, secretHash: hashDeviceSecret(secret), valveFullSteps: 1600, firmware: null, lastSeenAt: null, secretRotatedAt: null });
+    creds.push({ serial, secret });
+  }
+  const mqttUrl = srv.mqttUrl ?? '';
+
+  // 2. Broker alone: a second embedded broker (same persistence and ACL) with one subscriber that does nothing.
+  {
+    const alone = new EmbeddedBroker({
+      host: '127.0.0.1', port: 0, persistenceDir: mkdtempSync(path.join(os.tmpdir(), 'rimehold-bench-alone-')), ingestUser: config.MQTT_INGEST_USER, ingestPassword: config.MQTT_INGEST_PASSWORD,
+      simUser: null, simPassword: null, ingestQueueLimit: 1e9, models, bus: new EventBus(), metrics: createTelemetryMetrics(false), logger: srv.ctx.logger,
+    });
+    const alonePort = await alone.start();
+    const sub = await mqtt.connectAsync(`mqtt://127.0.0.1:${alonePort}`, { clientId: 'rimehold-null-sub', username: config.MQTT_INGEST_USER, password: config.MQTT_INGEST_PASSWORD, clean: false, protocolVersion: 4 });
+    let received = 0;
+    let lastAt = 0;
+    sub.on('message', () => {
+      received++;
+      lastAt = performance.now();
+    });
+    await sub.subscribeAsync({ 'rimehold/v1/ctl/+/telemetry': { qos: 1 } });
+    const t0 = performance.now();
+    const r = await runLoad(['--mode=publish', `--url=mqtt://127.0.0.1:${alonePort}`, `--creds=${JSON.stringify(creds)}`, `--seconds=${Math.min(10, SECONDS)}`, `--window=${WINDOW}`]);
+    const total = Number(r.total);
+    const deadline = performance.now() + 30_000;
+    while (received < total && performance.now() < deadline) await new Promise((res) => setTimeout(res, 50));
+    results.brokerAloneMsgPerS = Math.round(received / ((lastAt - t0) / 1000));
+    results.brokerAloneDelivered = `${received}/${total}`;
+    await sub.endAsync();
+    await alone.stop();
+  }
+
+  // 3. The pipeline, with a signed-in WebSocket client measuring publish → push latency.
+  {
+    const admin = await models.User.create({ email: 'bench-admin@bench.example.com', name: 'Bench Admin', role: 'admin', customerId: null, passwordHash: await hashSecret('bench-password-1'), inviteTokenHash: null, inviteExpiresAt: null, invitedAt: null, lastLoginAt: null, lockedUntil: null });
+    void admin;
+    const pre = await fetch(`${srv.url}/api/v1/auth/csrf`);
+    const preCookie = (pre.headers.get('set-cookie') ?? '').split(';')[0] ?? '';
+    const { csrfToken } = (await pre.json()) as { csrfToken: string };
+    const login = await fetch(`${srv.url}/api/v1/auth/login`, { method: 'POST', headers: { 'content-type': 'application/json', cookie: preCookie, 'x-csrf-token': csrfToken }, body: JSON.stringify({ email: 'bench-admin@bench.example.com', password: 'bench-password-1' }) });
+    if (login.status !== 200) throw new Error(`bench sign-in failed: ${login.status} ${await login.text()}`);
+    const cookie = (login.headers.get('set-cookie') ?? '').split(';')[0] ?? '';
+    let wsReady: () => void = () => {};
+    const ready = new Promise<void>((r) => (wsReady = r));
+    const wsDone = runLoad(['--mode=ws', `--url=${srv.url.replace('http://', 'ws://')}/ws`, `--cookie=${cookie}`, `--seconds=${SECONDS + 15}`], () => wsReady());
+    await ready;
+    const count = async () => (await srv.ctx.sequelize.query<{ n: number }>('SELECT COUNT(*) AS n FROM readings', { type: QueryTypes.SELECT }))[0]?.n ?? 0;
+    const t0 = performance.now();
+    const diag = process.env.BENCH_DIAG ? setInterval(async () => {
+      const depth = (await srv.ctx.metrics.brokerQueueDepth.get()).values[0]?.value;
+      const q = (await srv.ctx.metrics.queueDepth.get()).values[0]?.value;
+      console.error(`t=${((performance.now() - t0) / 1000).toFixed(0)}s accepted=${srv.ingest?.counts.accepted} brokerDepth=${depth} ingestQueue=${q}`);
+    }, 1000) : null;
+    const r = await runLoad(['--mode=publish', `--url=${mqttUrl}`, `--creds=${JSON.stringify(creds)}`, `--seconds=${SECONDS}`, `--window=${WINDOW}`]);
+    const total = Number(r.total);
+    const deadline = performance.now() + 60_000;
+    let stored = await count();
+    while (stored < total && performance.now() < deadline) {
+      await new Promise((res) => setTimeout(res, 100));
+      stored = Number(await count());
+    }
+    const t1 = performance.now();
+    if (diag) clearInterval(diag);
+    results.published = total;
+    results.publishedPerS = Math.round(total / Number(r.elapsed));
+    results.stored = Number(stored);
+    results.storedPerS = Math.round(Number(stored) / ((t1 - t0) / 1000));
+    const [chk] = await srv.ctx.sequelize.query<{ n: number; distinct_seq: number }>('SELECT COUNT(*) AS n, COUNT(DISTINCT box_id, seq) AS distinct_seq FROM readings', { type: QueryTypes.SELECT });
+    const perBox = await srv.ctx.sequelize.query<{ serial: string; n: number; max_seq: number }>('SELECT c.serial, COUNT(*) AS n, MAX(r.seq) AS max_seq FROM readings r JOIN controllers c ON c.box_id = r.box_id GROUP BY c.serial', { type: QueryTypes.SELECT });
+    const pub = r.published as Record<string, number>;
+    const mismatched = perBox.filter((b) => Number(b.n) !== pub[b.serial] || Number(b.max_seq) !== pub[b.serial]).length + Object.keys(pub).filter((s) => !perBox.some((b) => b.serial === s)).length;
+    results.countCheck = Number(chk?.n) === total && Number(chk?.distinct_seq) === total && mismatched === 0 ? 'ok: every published seq stored exactly once' : `FAILED: stored ${chk?.n}, distinct ${chk?.distinct_seq}, published ${total}, controllers mismatched ${mismatched}`;
+    const hist = async (name: string) => {
+      const m = await srv.ctx.metrics.registry.getSingleMetric(name)?.get();
+      const sum = m?.values.find((v) => v.metricName?.endsWith('_sum'))?.value ?? 0;
+      const cnt = m?.values.find((v) => v.metricName?.endsWith('_count'))?.value ?? 0;
+      return { batches: cnt, mean: cnt ? sum / cnt : 0 };
+    };
+    const bs = await hist('rimehold_ingest_batch_size');
+    const it = await hist('rimehold_ingest_insert_seconds');
+    results.batches = bs.batches;
+    results.meanBatchSize = Math.round(bs.mean);
+    results.meanCommitMs = Number((it.mean * 1000).toFixed(1));
+    const wsr = await wsDone;
+    results.wsReceived = wsr.received;
+    results.wsLatencyP50Ms = wsr.p50;
+    results.wsLatencyP99Ms = wsr.p99;
+    results.ratioToBrokerAlone = Number((Number(results.storedPerS) / Number(results.brokerAloneMsgPerS)).toFixed(2));
+    results.ratioToDbAlone = Number((Number(results.storedPerS) / Number(results.dbAloneRowsPerS)).toFixed(2));
+  }
+  await srv.stop();
+} finally {
+  await instance.stop(true);
+}
+console.log(JSON.stringify(results, null, 2));

@@ -1,0 +1,53 @@
+import type { Role } from '@shared/domain';
+import type { IconName } from '@/components/AppIcon.vue';
+
+export interface NavItem {
+  name: string;
+  label: string;
+  icon: IconName;
+  roles?: readonly Role[];
+  /** Shown in the phone's bottom bar (the rest go in "More"). */
+  primary?: boolean;
+  /** Only when the server offers it (dev mailbox). */
+  devOnly?: boolean;
+}
+export interface NavGroup {
+  label: string | null;
+  items: NavItem[];
+}
+
+export const NAV: NavGroup[] = [
+  { label: null, items: [{ name: 'fleet', label: 'Fleet', icon: 'fleet', primary: true }] },
+  {
+    label: 'Field tools',
+    items: [
+      { name: 'tool-pt', label: 'P–T calculator', icon: 'gauge', primary: true },
+      { name: 'tool-superheat', label: 'Superheat', icon: 'thermometer', primary: true },
+    ],
+  },
+  {
+    label: 'Customers & boxes',
+    items: [
+      { name: 'customers', label: 'Customers', icon: 'customers', roles: ['admin', 'technician'] },
+      { name: 'sites', label: 'Sites', icon: 'sites', roles: ['admin', 'technician'] },
+      { name: 'boxes', label: 'Boxes', icon: 'boxes', roles: ['admin', 'technician'] },
+    ],
+  },
+  {
+    label: 'Office',
+    items: [
+      { name: 'users', label: 'Users', icon: 'users', roles: ['admin'] },
+      { name: 'controllers', label: 'Controllers', icon: 'controller', roles: ['admin'] },
+      { name: 'mailbox', label: 'Dev mailbox', icon: 'mail', roles: ['admin'], devOnly: true },
+    ],
+  },
+];
+
+/** The navigation a role sees. */
+export function navFor(role: Role | null, devMailbox: boolean): NavGroup[] {
+  if (!role) return [];
+  return NAV.map((g) => ({
+    label: g.label,
+    items: g.items.filter((i) => (!i.roles || i.roles.includes(role)) && (!i.devOnly || devMailbox)),
+  })).filter((g) => g.items.length > 0);
+}

@@ -1,0 +1,50 @@
+import type { RouteRecordRaw } from 'vue-router';
+import type { Role } from '@shared/domain';
+
+declare module 'vue-router' {
+  interface RouteMeta {
+    /** Reachable without signing in. */
+    public?: boolean;
+    /** Only for signed-out visitors (sign-in page). */
+    guestOnly?: boolean;
+    /** Roles allowed; absent = every signed-in user. */
+    roles?: readonly Role[];
+    title?: string;
+  }
+}
+
+export const STAFF: readonly Role[] = ['admin', 'technician'];
+export const ADMIN: readonly Role[] = ['admin'];
+
+export const routes: RouteRecordRaw[] = [
+  {
+    path: '/sign-in',
+    name: 'sign-in',
+    component: () => import('@/views/auth/SignInView.vue'),
+    meta: { public: true, guestOnly: true, title: 'Sign in' },
+  },
+  {
+    path: '/set-password',
+    name: 'set-password',
+    component: () => import('@/views/auth/SetPasswordView.vue'),
+    meta: { public: true, title: 'Set your password' },
+  },
+  {
+    path: '/',
+    component: () => import('@/components/TheAppShell.vue'),
+    children: [
+      { path: '', name: 'fleet', component: () => import('@/views/fleet/FleetView.vue'), meta: { title: 'Fleet' } },
+      { path: 'boxes/:id(\\d+)', name: 'box', component: () => import('@/views/boxes/BoxDetailView.vue'), meta: { title: 'Box' }, props: true },
+      { path: 'tools/pressure-temperature', name: 'tool-pt', component: () => import('@/views/tools/PressureTemperatureView.vue'), meta: { title: 'P–T calculator' } },
+      { path: 'tools/superheat', name: 'tool-superheat', component: () => import('@/views/tools/SuperheatView.vue'), meta: { title: 'Superheat & subcooling' } },
+      { path: 'customers', name: 'customers', component: () => import('@/views/customers/CustomersView.vue'), meta: { title: 'Customers', roles: STAFF } },
+      { path: 'sites', name: 'sites', component: () => import('@/views/customers/SitesView.vue'), meta: { title: 'Sites', roles: STAFF } },
+      { path: 'boxes', name: 'boxes', component: () => import('@/views/customers/BoxesView.vue'), meta: { title: 'Boxes', roles: STAFF } },
+      { path: 'admin/users', name: 'users', component: () => import('@/views/admin/UsersView.vue'), meta: { title: 'Users', roles: ADMIN } },
+      { path: 'admin/controllers', name: 'controllers', component: () => import('@/views/admin/ControllersView.vue'), meta: { title: 'Controllers', roles: ADMIN } },
+      { path: 'admin/mailbox', name: 'mailbox', component: () => import('@/views/admin/MailboxView.vue'), meta: { title: 'Dev mailbox', roles: ADMIN } },
+      { path: 'forbidden', name: 'forbidden', component: () => import('@/views/NotFoundView.vue'), meta: { title: 'Not available' }, props: { forbidden: true } },
+      { path: ':pathMatch(.*)*', name: 'not-found', component: () => import('@/views/NotFoundView.vue'), meta: { title: 'Not found' } },
+    ],
+  },
+];
