@@ -6,25 +6,43 @@
  */
 import { spawn, spawnSync } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
-import { existsSync } from 'node:fs';
+import { existsSync, mkdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import net from 'node:net';
 import path from 'node:path';
 import { MariaInstance } from './lib/mariadb';
 import { ensureClientBuilt } from './lib/build';
 
 const root = path.resolve(path.dirname(new URL(import.meta.url).pathname), '..');
-/** The first free port from `start`: concurrent test runs each get their own instance. */
-async function freePort(start: number): Promise<number> {
+/**
+ * The first port from `start` that is free and not claimed by another live test run. The claim
+ * (a lock file with our pid) also covers the outage test, which stops the instance for a while.
+ */
+async function claimPort(start: number): Promise<{ port: number; release: () => void }> {
+  const lockDir = path.join(root, '.data', 'locks');
+  mkdirSync(lockDir, { recursive: true });
   for (let p = start; p < start + 50; p++) {
+    const lock = path.join(lockDir, `test-db-${p}.pid`);
+    if (existsSync(lock)) {
+      const owner = Number(readFileSync(lock, 'utf8'));
+      try {
+        process.kill(owner, 0);
+        continue; // another run owns it
+      } catch {
+        // stale lock
+      }
+    }
     const free = await new Promise<boolean>((resolve) => {
       const srv = net.createServer().once('error', () => resolve(false)).listen(p, '127.0.0.1', () => srv.close(() => resolve(true)));
     });
-    if (free) return p;
+    if (!free) continue;
+    writeFileSync(lock, String(process.pid));
+    return { port: p, release: () => rmSync(lock, { force: true }) };
   }
   throw new Error(`no free port from ${start}`);
 }
 
-const port = await freePort(Number(process.env.TEST_DB_PORT ?? 3308));
+const claim = await claimPort(Number(process.env.TEST_DB_PORT ?? 3308));
+const port = claim.port;
 const dataDir = path.join(root, '.data', `mariadb-test-${port}`);
 const db = { name: 'rimehold_test', user: 'rimehold_test', password: randomBytes(18).toString('base64url') };
 
@@ -74,5 +92,6 @@ try {
 } finally {
   // Tests may have stopped and restarted the instance (outage tests): stop whatever runs on our data dir.
   await instance.stop(true);
+  claim.release();
 }
 process.exit(code);

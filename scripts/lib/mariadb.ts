@@ -167,6 +167,8 @@ export class MariaInstance {
     const args = [`--defaults-file=${this.cnf}`];
     if (process.getuid?.() === 0) args.push('--user=root');
     this.child = spawn(bin, args, { stdio: 'ignore', detached: false });
+    // The server process runs on its own; do not keep the starting process alive for it.
+    this.child.unref();
     this.ownsProcess = true;
     const exited = new Promise<number | null>((resolve) => this.child?.once('exit', (code) => resolve(code)));
     const deadline = Date.now() + 60_000;

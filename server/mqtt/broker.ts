@@ -150,7 +150,8 @@ export class EmbeddedBroker {
     const server = net.createServer(aedes.handle);
     await new Promise<void>((resolve, reject) => {
       server.once('error', reject);
-      server.listen(o.port, o.host, () => resolve());
+      // A restart keeps the port the controllers know.
+      server.listen(this.port || o.port, o.host, () => resolve());
     });
     this.server = server;
     this.port = (server.address() as AddressInfo).port;

@@ -351,6 +351,20 @@ export class Ingest {
     }
   }
 
+  /** Drops the connection at once without acknowledging anything pending, as a crash would (tests). */
+  async kill(): Promise<void> {
+    this.stopped = true;
+    if (this.touchTimer) clearInterval(this.touchTimer);
+    if (this.timer) clearTimeout(this.timer);
+    this.timer = null;
+    const c = this.client;
+    this.client = null;
+    this.gen++;
+    this.pending = [];
+    if (c) await c.endAsync(true).catch(() => undefined);
+    await this.flushing?.catch(() => undefined);
+  }
+
   /** Flushes what it can, then disconnects (messages not yet acknowledged stay with the broker). */
   async stop(): Promise<void> {
     this.stopped = true;
