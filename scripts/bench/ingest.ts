@@ -197,8 +197,8 @@ try {
     results.countCheck = Number(chk?.n) === total && Number(chk?.distinct_seq) === total && mismatched === 0 ? 'ok: every published seq stored exactly once' : `FAILED: stored ${chk?.n}, distinct ${chk?.distinct_seq}, published ${total}, controllers mismatched ${mismatched}`;
     const hist = async (name: string) => {
       const m = await srv.ctx.metrics.registry.getSingleMetric(name)?.get();
-      const sum = m?.values.find((v) => v.metricName?.endsWith('_sum'))?.value ?? 0;
-      const cnt = m?.values.find((v) => v.metricName?.endsWith('_count'))?.value ?? 0;
+      const sum = m?.values.find((v) => (v as { metricName?: string }).metricName?.endsWith('_sum'))?.value ?? 0;
+      const cnt = m?.values.find((v) => (v as { metricName?: string }).metricName?.endsWith('_count'))?.value ?? 0;
       return { batches: cnt, mean: cnt ? sum / cnt : 0 };
     };
     const bs = await hist('rimehold_ingest_batch_size');

@@ -26,6 +26,10 @@ function logIn(req: Request, user: SessionUser): Promise<void> {
   return new Promise((resolve, reject) => req.logIn(user, (err) => (err ? reject(err) : resolve())));
 }
 
+function features(ctx: AppContext): SessionInfo['features'] {
+  return { demoMode: ctx.config.DEMO_MODE, devMailbox: ctx.config.SMTP_FAKE && ctx.mailbox !== null };
+}
+
 /** The auth router. */
 export function authRoutes(ctx: AppContext, passport: PassportStatic, csrf: Csrf): Router {
   const r = Router();
@@ -49,7 +53,7 @@ export function authRoutes(ctx: AppContext, passport: PassportStatic, csrf: Csrf
     const user = await authenticate(passport, req);
     if (!user) throw problems.badCredentials();
     await logIn(req, user);
-    const body: SessionInfo = { user, csrfToken: csrf.generateToken(req, true) };
+    const body: SessionInfo = { user, csrfToken: csrf.generateToken(req, true), features: features(ctx) };
     ctx.logger.info({ userId: user.id, requestId: req.id }, 'signed in');
     res.json(body);
   });
@@ -63,7 +67,7 @@ export function authRoutes(ctx: AppContext, passport: PassportStatic, csrf: Csrf
   });
 
   r.get('/me', requireAuth, (req, res) => {
-    const body: SessionInfo = { user: currentUser(req), csrfToken: csrf.generateToken(req) };
+    const body: SessionInfo = { user: currentUser(req), csrfToken: csrf.generateToken(req), features: features(ctx) };
     res.json(body);
   });
 

@@ -1,6 +1,6 @@
 /** Telemetry routes: fleet status, latest reading, chart readings, settings to the controller, demo faults. */
 import { Router, type Request } from 'express';
-import { z } from 'zod';
+import { DemoFaultBody } from '../../shared/schemas/demo';
 import { ReadingsQuery } from '../../shared/schemas/live';
 import { BoxSettingsBody } from '../../shared/schemas/settings';
 import type { AppContext } from '../context';
@@ -10,21 +10,8 @@ import { parseBody, parseId, parseQuery } from '../http/validate';
 import { fleetStatus, latestReading, readingsBetween } from './queries';
 import { toChangeDto, type SettingsService } from './settings';
 import { SIM_FAULT_TOPIC } from '../mqtt/broker';
+import { audit } from '../audit/service';
 
-export const SIM_FAULTS = [
-  'low-charge',
-  'iced-coil',
-  'evap-fan-failed',
-  'defrost-heater-failed',
-  'door-ajar',
-  'thermistor-open',
-  'thermistor-shorted',
-  'valve-leak-through',
-  'short-cycling',
-  'offline',
-] as const;
-
-const FaultBody = z.object({ boxId: z.number().int().positive(), fault: z.enum(SIM_FAULTS), on: z.boolean() }).strict();
 
 /** The telemetry router (mounted on /api/v1). */
 export function telemetryRoutes(ctx: AppContext, settings: SettingsService): Router {
@@ -69,11 +56,12 @@ export function telemetryRoutes(ctx: AppContext, settings: SettingsService): Rou
 
   r.post('/demo/faults', requireRole('admin'), async (req, res) => {
     if (!ctx.config.DEMO_MODE) throw problems.forbidden('Fault injection is only available in demo mode.');
-    const body = parseBody(FaultBody, req);
+    const body = parseBody(DemoFaultBody, req);
     const ctl = await models.Controller.findOne({ where: { boxId: body.boxId } });
     if (!ctl) throw problems.notFound('controller for this box');
     if (!ctx.publish) throw problems.unavailable('The broker is not connected.');
-    await ctx.publish(SIM_FAULT_TOPIC, JSON.stringify({ serial: ctl.serial, fault: body.fault, on: body.on }), { qos: 1 });
+    await ctx.publish(SIM_FAULT_TOPIC, JSON.stringify({ serial: ctl.serial, fault: body.fault, on: body.on, ...(body.sensor ? { sensor: body.sensor } : {}) }), { qos: 1 });
+    await audit(models, req, { action: body.on ? 'demo.fault.on' : 'demo.fault.off', entityType: 'box', entityId: body.boxId, detail: { fault: body.fault, sensor: body.sensor ?? null } });
     res.status(202).json({ serial: ctl.serial, fault: body.fault, on: body.on });
   });
 

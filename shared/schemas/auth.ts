@@ -29,8 +29,15 @@ export interface SessionUser {
   unitSystem: (typeof UNIT_SYSTEMS)[number];
 }
 
-/** Answer of sign-in and of `GET /api/v1/auth/me`: the user and the CSRF token for state-changing calls. */
+/** Server features the client may show: demo fault injection, the dev mailbox. */
+export interface ServerFeatures {
+  demoMode: boolean;
+  devMailbox: boolean;
+}
+
+/** Answer of sign-in and of `GET /api/v1/auth/me`: the user, the CSRF token for state-changing calls, features. */
 export interface SessionInfo {
   user: SessionUser;
   csrfToken: string;
+  features: ServerFeatures;
 }

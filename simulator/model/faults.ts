@@ -2,23 +2,9 @@
  * Faults the simulator can inject, each producing the trend signature a technician reads
  * (TRADE-NOTES §4 table; see simulator/README.md for what each one does to the model).
  */
-export const FAULT_NAMES = [
-  'low-charge',
-  'iced-coil',
-  'evap-fan-failed',
-  'defrost-heater-failed',
-  'door-ajar',
-  'thermistor-open',
-  'thermistor-shorted',
-  'valve-leak-through',
-  'short-cycling',
-  'offline',
-] as const;
-export type FaultName = (typeof FAULT_NAMES)[number];
-
-/** Thermistor inputs a sensor fault can hit (telemetry field names). */
-export const THERMISTOR_NAMES = ['boxAirC', 'suctionLineC', 'coilInletC', 'dischargeAirC', 'liquidLineC'] as const;
-export type ThermistorName = (typeof THERMISTOR_NAMES)[number];
+// The names are shared with the server's demo fault route and the client.
+export { FAULT_NAMES, THERMISTOR_NAMES, type FaultName, type ThermistorName } from '../../shared/schemas/demo';
+import type { FaultName, ThermistorName } from '../../shared/schemas/demo';
 
 /** An open NTC reads off-scale cold, a shorted one off-scale hot: the ends of the telemetry range, °C. */
 export const OPEN_THERMISTOR_C = -60;
