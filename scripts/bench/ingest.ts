@@ -7,7 +7,8 @@
  *   3. the pipeline: the real server (broker → ingest → MariaDB → WebSocket) with many lightweight
  *      controller connections, then the count check: published = stored, none stored twice.
  * Everything runs on 127.0.0.1 with its own MariaDB instance (.data/mariadb-bench).
- * Options: BENCH_SECONDS (default 20), BENCH_CONTROLLERS (default 400), BENCH_WINDOW (in-flight per connection, default 4).
+ * Options: BENCH_SECONDS (default 20), BENCH_CONTROLLERS (default 400), BENCH_WINDOW (in-flight per connection,
+ * default 4), BENCH_LATENCY_RATE (msg/s offered in the fixed-rate latency phase, default 1000).
  */
 import { spawn } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
@@ -25,6 +26,7 @@ const root = path.resolve(path.dirname(new URL(import.meta.url).pathname), '..',
 const SECONDS = Number(process.env.BENCH_SECONDS ?? 20);
 const CONTROLLERS = Number(process.env.BENCH_CONTROLLERS ?? 400);
 const WINDOW = Number(process.env.BENCH_WINDOW ?? 4);
+const LATENCY_RATE = Number(process.env.BENCH_LATENCY_RATE ?? 1000);
 
 async function freePort(start: number): Promise<number> {
   for (let p = start; p < start + 50; p++) {
@@ -141,15 +143,14 @@ try {
     let lastAt = 0;
     sub.on('message', () => {
       received++;
-      lastAt = performance.now();
+      lastAt = Date.now();
     });
     await sub.subscribeAsync({ 'rimehold/v1/ctl/+/telemetry': { qos: 1 } });
-    const t0 = performance.now();
     const r = await runLoad(['--mode=publish', `--url=mqtt://127.0.0.1:${alonePort}`, `--creds=${JSON.stringify(creds)}`, `--seconds=${Math.min(10, SECONDS)}`, `--window=${WINDOW}`]);
     const total = Number(r.total);
     const deadline = performance.now() + 30_000;
     while (received < total && performance.now() < deadline) await new Promise((res) => setTimeout(res, 50));
-    results.brokerAloneMsgPerS = Math.round(received / ((lastAt - t0) / 1000));
+    results.brokerAloneMsgPerS = Math.round(received / ((lastAt - Number(r.startedAt)) / 1000));
     results.brokerAloneDelivered = `${received}/${total}`;
     await sub.endAsync();
     await alone.stop();
@@ -165,36 +166,58 @@ try {
     const login = await fetch(`${srv.url}/api/v1/auth/login`, { method: 'POST', headers: { 'content-type': 'application/json', cookie: preCookie, 'x-csrf-token': csrfToken }, body: JSON.stringify({ email: 'bench-admin@bench.example.com', password: 'bench-password-1' }) });
     if (login.status !== 200) throw new Error(`bench sign-in failed: ${login.status} ${await login.text()}`);
     const cookie = (login.headers.get('set-cookie') ?? '').split(';')[0] ?? '';
-    let wsReady: () => void = () => {};
-    const ready = new Promise<void>((r) => (wsReady = r));
-    const wsDone = runLoad(['--mode=ws', `--url=${srv.url.replace('http://', 'ws://')}/ws`, `--cookie=${cookie}`, `--seconds=${SECONDS + 15}`], () => wsReady());
-    await ready;
-    const count = async () => (await srv.ctx.sequelize.query<{ n: number }>('SELECT COUNT(*) AS n FROM readings', { type: QueryTypes.SELECT }))[0]?.n ?? 0;
-    const t0 = performance.now();
-    const diag = process.env.BENCH_DIAG ? setInterval(async () => {
-      const depth = (await srv.ctx.metrics.brokerQueueDepth.get()).values[0]?.value;
-      const q = (await srv.ctx.metrics.queueDepth.get()).values[0]?.value;
-      console.error(`t=${((performance.now() - t0) / 1000).toFixed(0)}s accepted=${srv.ingest?.counts.accepted} brokerDepth=${depth} ingestQueue=${q}`);
-    }, 1000) : null;
-    const r = await runLoad(['--mode=publish', `--url=${mqttUrl}`, `--creds=${JSON.stringify(creds)}`, `--seconds=${SECONDS}`, `--window=${WINDOW}`]);
-    const total = Number(r.total);
-    const deadline = performance.now() + 60_000;
-    let stored = await count();
-    while (stored < total && performance.now() < deadline) {
-      await new Promise((res) => setTimeout(res, 100));
-      stored = Number(await count());
-    }
-    const t1 = performance.now();
-    if (diag) clearInterval(diag);
-    results.published = total;
-    results.publishedPerS = Math.round(total / Number(r.elapsed));
-    results.stored = Number(stored);
-    results.storedPerS = Math.round(Number(stored) / ((t1 - t0) / 1000));
+    const count = async () => Number((await srv.ctx.sequelize.query<{ n: number }>('SELECT COUNT(*) AS n FROM readings', { type: QueryTypes.SELECT }))[0]?.n ?? 0);
+    const published: Record<string, number> = {};
+    let totalPublished = 0;
+
+    /** One phase: a WebSocket client, the publishers (closed loop, or open loop at `rate`), then wait until all is stored. */
+    const phase = async (label: string, rate: number, seqBase: number) => {
+      let wsReady: () => void = () => {};
+      const ready = new Promise<void>((res) => (wsReady = res));
+      const wsDone = runLoad(['--mode=ws', `--url=${srv.url.replace('http://', 'ws://')}/ws`, `--cookie=${cookie}`, `--seconds=${SECONDS + 20}`], () => wsReady());
+      await ready;
+      const before = await count();
+      const r = await runLoad(['--mode=publish', `--url=${mqttUrl}`, `--creds=${JSON.stringify(creds)}`, `--seconds=${SECONDS}`, `--window=${WINDOW}`, `--rate=${rate}`, `--seq-base=${seqBase}`]);
+      const endedAt = Date.now();
+      const atEnd = (await count()) - before;
+      const total = Number(r.total);
+      for (const [k, v] of Object.entries(r.published as Record<string, number>)) published[k] = v;
+      totalPublished += total;
+      const deadline = Date.now() + 60_000;
+      let stored = (await count()) - before;
+      let lastChange = Date.now();
+      while (stored < total && Date.now() < deadline) {
+        await new Promise((res) => setTimeout(res, 50));
+        const n = (await count()) - before;
+        if (n !== stored) lastChange = Date.now();
+        stored = n;
+      }
+      const startedAt = Number(r.startedAt);
+      const wsr = await wsDone;
+      results[label] = {
+        offeredPerS: rate || 'as fast as acknowledged',
+        published: total,
+        publishedPerS: Math.round(total / Number(r.elapsed)),
+        storedDuringLoadPerS: Math.round(atEnd / ((endedAt - startedAt) / 1000)),
+        storedPerS: Math.round(stored / ((lastChange - startedAt) / 1000)),
+        stored,
+        wsReceived: wsr.received,
+        latencyP50Ms: wsr.p50,
+        latencyP99Ms: wsr.p99,
+      };
+    };
+
+    await phase('throughput', 0, 0);
+    await phase('latencyAtFixedRate', LATENCY_RATE, 10_000_000);
+
     const [chk] = await srv.ctx.sequelize.query<{ n: number; distinct_seq: number }>('SELECT COUNT(*) AS n, COUNT(DISTINCT box_id, seq) AS distinct_seq FROM readings', { type: QueryTypes.SELECT });
-    const perBox = await srv.ctx.sequelize.query<{ serial: string; n: number; max_seq: number }>('SELECT c.serial, COUNT(*) AS n, MAX(r.seq) AS max_seq FROM readings r JOIN controllers c ON c.box_id = r.box_id GROUP BY c.serial', { type: QueryTypes.SELECT });
-    const pub = r.published as Record<string, number>;
-    const mismatched = perBox.filter((b) => Number(b.n) !== pub[b.serial] || Number(b.max_seq) !== pub[b.serial]).length + Object.keys(pub).filter((s) => !perBox.some((b) => b.serial === s)).length;
-    results.countCheck = Number(chk?.n) === total && Number(chk?.distinct_seq) === total && mismatched === 0 ? 'ok: every published seq stored exactly once' : `FAILED: stored ${chk?.n}, distinct ${chk?.distinct_seq}, published ${total}, controllers mismatched ${mismatched}`;
+    const perBox = await srv.ctx.sequelize.query<{ serial: string; max_seq: number }>('SELECT c.serial, MAX(r.seq) AS max_seq FROM readings r JOIN controllers c ON c.box_id = r.box_id GROUP BY c.serial', { type: QueryTypes.SELECT });
+    const mismatched = Object.entries(published).filter(([serial, max]) => Number(perBox.find((b) => b.serial === serial)?.max_seq) !== max).length;
+    results.countCheck =
+      Number(chk?.n) === totalPublished && Number(chk?.distinct_seq) === totalPublished && mismatched === 0
+        ? `ok: ${totalPublished} published, ${chk?.n} stored, none twice`
+        : `FAILED: published ${totalPublished}, stored ${chk?.n}, distinct ${chk?.distinct_seq}, controllers with a missing last seq ${mismatched}`;
+    results.stallRecoveries = srv.broker?.stallRecoveries ?? 0;
     const hist = async (name: string) => {
       const m = await srv.ctx.metrics.registry.getSingleMetric(name)?.get();
       const sum = m?.values.find((v) => (v as { metricName?: string }).metricName?.endsWith('_sum'))?.value ?? 0;
@@ -206,12 +229,9 @@ try {
     results.batches = bs.batches;
     results.meanBatchSize = Math.round(bs.mean);
     results.meanCommitMs = Number((it.mean * 1000).toFixed(1));
-    const wsr = await wsDone;
-    results.wsReceived = wsr.received;
-    results.wsLatencyP50Ms = wsr.p50;
-    results.wsLatencyP99Ms = wsr.p99;
-    results.ratioToBrokerAlone = Number((Number(results.storedPerS) / Number(results.brokerAloneMsgPerS)).toFixed(2));
-    results.ratioToDbAlone = Number((Number(results.storedPerS) / Number(results.dbAloneRowsPerS)).toFixed(2));
+    const tp = results.throughput as { storedPerS: number };
+    results.ratioToBrokerAlone = Number((tp.storedPerS / Number(results.brokerAloneMsgPerS)).toFixed(2));
+    results.ratioToDbAlone = Number((tp.storedPerS / Number(results.dbAloneRowsPerS)).toFixed(2));
   }
   await srv.stop();
 } finally {

@@ -18,6 +18,8 @@ async function publish(): Promise<void> {
   const seconds = Number(args.get('--seconds') ?? 10);
   const window = Number(args.get('--window') ?? 8);
   const topicOverride = args.get('--topic');
+  /** Total messages per second across all connections; 0 = as fast as the broker acknowledges. */
+  const rate = Number(args.get('--rate') ?? 0);
   const clients: MqttClient[] = [];
   for (const c of creds) {
     clients.push(
@@ -33,13 +35,14 @@ async function publish(): Promise<void> {
   }
   const published = new Map<string, number>();
   const start = Date.now();
+  process.stderr.write('');
   const end = start + seconds * 1000;
   let total = 0;
   await Promise.all(
     creds.map(async (c, i) => {
       const client = clients[i];
       if (!client) return;
-      let seq = 0;
+      let seq = Number(args.get('--seq-base') ?? 0);
       let lastTs = 0;
       const topic = topicOverride ?? `rimehold/v1/ctl/${c.serial}/telemetry`;
       const one = async () => {
@@ -64,6 +67,27 @@ async function publish(): Promise<void> {
           published.set(c.serial, seq);
         }
       };
+      if (rate > 0) {
+        // Open loop at a fixed rate: each connection publishes every creds.length / rate seconds.
+        const periodMs = (creds.length / rate) * 1000;
+        await new Promise((r) => setTimeout(r, Math.random() * periodMs));
+        const inflight: Promise<void>[] = [];
+        while (Date.now() < end) {
+          const t = Date.now();
+          const now = Math.max(t, lastTs + 1);
+          lastTs = now;
+          seq++;
+          const body = JSON.stringify({ seq, ts: new Date(now).toISOString(), suctionKPaG: 250, suctionLineC: -2.5, boxAirC: 2.2, valveSteps: 720, compressorOn: true, fanOn: true, defrostOn: false, doorOpen: false });
+          const s = seq;
+          inflight.push(client.publishAsync(topic, body, { qos: 1 }).then(() => {
+            total++;
+            published.set(c.serial, Math.max(published.get(c.serial) ?? 0, s));
+          }));
+          await new Promise((r) => setTimeout(r, Math.max(0, periodMs - (Date.now() - t))));
+        }
+        await Promise.all(inflight);
+        return;
+      }
       // A small window of in-flight messages per connection; each lane owns its seq range order.
       const lanes = Array.from({ length: window }, () => one());
       await Promise.all(lanes);
@@ -71,7 +95,7 @@ async function publish(): Promise<void> {
   );
   const elapsed = (Date.now() - start) / 1000;
   await Promise.all(clients.map((c) => c.endAsync()));
-  process.stdout.write(`${JSON.stringify({ published: Object.fromEntries(published), total, elapsed })}\n`);
+  process.stdout.write(`${JSON.stringify({ published: Object.fromEntries(published), total, elapsed, startedAt: start })}\n`);
 }
 
 async function ws(): Promise<void> {

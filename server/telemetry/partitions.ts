@@ -10,7 +10,13 @@ import type { Logger } from '../logger';
 
 type Grain = 'day' | 'month';
 
-const TABLES: Array<{ table: string; grain: Grain; retention: 'raw' | 'rollup' }> = [
+export interface PartitionedTable {
+  table: string;
+  grain: Grain;
+  retention: 'raw' | 'rollup';
+}
+
+const TABLES: PartitionedTable[] = [
   { table: 'readings', grain: 'day', retention: 'raw' },
   { table: 'readings_1m', grain: 'month', retention: 'rollup' },
   { table: 'readings_15m', grain: 'month', retention: 'rollup' },
@@ -48,9 +54,14 @@ export interface MaintenanceResult {
 }
 
 /** Adds partitions ahead of `now` and drops those wholly older than the retention. */
-export async function maintainPartitions(sequelize: Sequelize, retention: { rawDays: number; rollupDays: number }, now = new Date()): Promise<MaintenanceResult> {
+export async function maintainPartitions(
+  sequelize: Sequelize,
+  retention: { rawDays: number; rollupDays: number },
+  now = new Date(),
+  tables: PartitionedTable[] = TABLES,
+): Promise<MaintenanceResult> {
   const result: MaintenanceResult = { added: [], dropped: [] };
-  for (const t of TABLES) {
+  for (const t of tables) {
     const parts = await listPartitions(sequelize, t.table);
     const bounded = parts.filter((p) => p.bound !== null);
     const lastBound = bounded.length ? new Date(`${bounded[bounded.length - 1]?.bound}T00:00:00Z`) : startOf(now, t.grain);
