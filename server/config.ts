@@ -49,6 +49,8 @@ const EnvSchema = z.object({
    * nothing is dropped; it resumes once the ingest catches up.
    */
   MQTT_INGEST_QUEUE_LIMIT: z.coerce.number().int().min(100).default(200_000),
+  /** level: durable sessions on disk (default). memory: for measuring only, loses sessions on restart. */
+  MQTT_PERSISTENCE: z.enum(['level', 'memory']).default('level'),
   /** Directory of the embedded broker's durable session store (default DATA_DIR/broker). */
   MQTT_PERSISTENCE_DIR: z.string().optional(),
   SMTP_HOST: z.string().default('127.0.0.1'),

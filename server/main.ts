@@ -81,6 +81,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
         host: config.MQTT_HOST,
         port: config.MQTT_PORT,
         persistenceDir: config.MQTT_PERSISTENCE_DIR ?? path.join(config.DATA_DIR, 'broker'),
+        persistence: config.MQTT_PERSISTENCE,
         ingestUser: config.MQTT_INGEST_USER,
         ingestPassword: config.MQTT_INGEST_PASSWORD,
         simUser: config.DEMO_MODE ? config.MQTT_SIM_USER : null,

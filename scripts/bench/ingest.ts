@@ -71,6 +71,7 @@ Object.assign(process.env, {
   NODE_ENV: 'test', DB_HOST: '127.0.0.1', DB_PORT: String(port), DB_NAME: db.name, DB_USER: db.user, DB_PASSWORD: db.password, DB_EXTERNAL: '1',
   PORT: '0', MQTT_PORT: '0', SMTP_FAKE: '0', LOG_LEVEL: 'warn', DEMO_MODE: '0', SESSION_SECRET: randomBytes(24).toString('base64url'),
   MQTT_PERSISTENCE_DIR: mkdtempSync(path.join(os.tmpdir(), 'rimehold-bench-broker-')),
+  MQTT_PERSISTENCE: process.env.BENCH_PERSISTENCE ?? 'level',
 });
 
 const { loadConfig } = await import('../../server/config');
@@ -84,7 +85,7 @@ const { EmbeddedBroker } = await import('../../server/mqtt/broker');
 const { EventBus } = await import('../../server/events/bus');
 const { createTelemetryMetrics } = await import('../../server/telemetry/metrics');
 const config = loadConfig();
-const results: Record<string, unknown> = { machine: `${os.cpus().length} cores, ${Math.round(os.totalmem() / 2 ** 30)} GiB`, seconds: SECONDS, controllers: CONTROLLERS };
+const results: Record<string, unknown> = { brokerPersistence: config.MQTT_PERSISTENCE, machine: `${os.cpus().length} cores, ${Math.round(os.totalmem() / 2 ** 30)} GiB`, seconds: SECONDS, controllers: CONTROLLERS };
 
 try {
   const sequelize = createSequelize(config);
@@ -135,7 +136,7 @@ try {
   {
     const alone = new EmbeddedBroker({
       host: '127.0.0.1', port: 0, persistenceDir: mkdtempSync(path.join(os.tmpdir(), 'rimehold-bench-alone-')), ingestUser: config.MQTT_INGEST_USER, ingestPassword: config.MQTT_INGEST_PASSWORD,
-      simUser: null, simPassword: null, ingestQueueLimit: 1e9, models, bus: new EventBus(), metrics: createTelemetryMetrics(false), logger: srv.ctx.logger,
+      simUser: null, simPassword: null, ingestQueueLimit: 1e9, persistence: config.MQTT_PERSISTENCE, models, bus: new EventBus(), metrics: createTelemetryMetrics(false), logger: srv.ctx.logger,
     });
     const alonePort = await alone.start();
     const sub = await mqtt.connectAsync(`mqtt://127.0.0.1:${alonePort}`, { clientId: 'rimehold-null-sub', username: config.MQTT_INGEST_USER, password: config.MQTT_INGEST_PASSWORD, clean: false, protocolVersion: 4 });

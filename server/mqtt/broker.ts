@@ -24,6 +24,7 @@ export interface BrokerOptions {
   host: string;
   port: number;
   persistenceDir: string;
+  persistence?: 'level' | 'memory';
   ingestUser: string;
   ingestPassword: string;
   simUser: string | null;
@@ -39,7 +40,7 @@ type Principal = { kind: 'controller'; serial: string } | { kind: 'ingest' } | {
 
 const CONTROLLER_PUBLISH = new Set(['telemetry', 'status', 'config/ack']);
 /** The ingest acknowledged nothing for this long while telemetry waits: treat its session as stalled. */
-const STALL_MS = 5000;
+const STALL_MS = 1500;
 
 function authError(code: 4 | 5, message: string): AuthenticateError {
   const err = new Error(message) as AuthenticateError;
@@ -75,10 +76,11 @@ export class EmbeddedBroker {
   async start(): Promise<number> {
     const o = this.o;
     mkdirSync(o.persistenceDir, { recursive: true });
-    this.db = new Level(o.persistenceDir);
-    const persistence = new AsyncLevelPersistence(this.db);
+    // 'memory' exists only to measure what the durable store costs (bench); it loses sessions on restart.
+    this.db = o.persistence === 'memory' ? null : new Level(o.persistenceDir);
+    const persistence = this.db ? new AsyncLevelPersistence(this.db) : undefined;
     const aedes = await Aedes.createBroker({
-      persistence,
+      ...(persistence ? { persistence } : {}),
       concurrency: 1000,
       heartbeatInterval: 60_000,
       connectTimeout: 30_000,

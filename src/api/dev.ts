@@ -1,11 +1,13 @@
 import { http } from './http';
 
+/** One message captured by the development mail server (`GET /api/v1/dev/mailbox`, SMTP_FAKE=1). Plain text only. */
 export interface MailboxMessage {
-  id: string | number;
-  to: string;
+  id: number;
+  from: string;
+  to: string[];
   subject: string;
   text: string;
-  html: string | null;
+  /** ISO 8601, UTC. */
   receivedAt: string;
 }
 

@@ -1,4 +1,5 @@
 import type { Role } from '@shared/domain';
+import type { ServerFeatures } from '@shared/schemas/auth';
 import type { IconName } from '@/components/AppIcon.vue';
 
 export interface NavItem {
@@ -8,8 +9,8 @@ export interface NavItem {
   roles?: readonly Role[];
   /** Shown in the phone's bottom bar (the rest go in "More"). */
   primary?: boolean;
-  /** Only when the server offers it (dev mailbox). */
-  devOnly?: boolean;
+  /** Only when the server offers this feature (sign-in / `GET /auth/me` answer). */
+  feature?: keyof ServerFeatures;
 }
 export interface NavGroup {
   label: string | null;
@@ -38,16 +39,16 @@ export const NAV: NavGroup[] = [
     items: [
       { name: 'users', label: 'Users', icon: 'users', roles: ['admin'] },
       { name: 'controllers', label: 'Controllers', icon: 'controller', roles: ['admin'] },
-      { name: 'mailbox', label: 'Dev mailbox', icon: 'mail', roles: ['admin'], devOnly: true },
+      { name: 'mailbox', label: 'Dev mailbox', icon: 'mail', roles: ['admin'], feature: 'devMailbox' },
     ],
   },
 ];
 
-/** The navigation a role sees. */
-export function navFor(role: Role | null, devMailbox: boolean): NavGroup[] {
+/** The navigation a role sees, given the features the server offers. */
+export function navFor(role: Role | null, features: Readonly<ServerFeatures>): NavGroup[] {
   if (!role) return [];
   return NAV.map((g) => ({
     label: g.label,
-    items: g.items.filter((i) => (!i.roles || i.roles.includes(role)) && (!i.devOnly || devMailbox)),
+    items: g.items.filter((i) => (!i.roles || i.roles.includes(role)) && (!i.feature || features[i.feature])),
   })).filter((g) => g.items.length > 0);
 }

@@ -1,16 +1,26 @@
 import { defineStore } from 'pinia';
 import { computed, ref } from 'vue';
 import type { Role, UnitSystemPref } from '@shared/domain';
-import type { LoginBody, SessionInfo, SessionUser } from '@shared/schemas/auth';
+import type { LoginBody, ServerFeatures, SessionInfo, SessionUser } from '@shared/schemas/auth';
 import { authApi } from '@/api/auth';
 import { ApiError } from '@/api/http';
 
 export type SessionStatus = 'unknown' | 'loading' | 'ready';
 
-/** The signed-in user, the CSRF token and role helpers. */
+/** Every feature off: the state before sign-in, and what a missing or malformed `features` means. */
+export const NO_FEATURES: Readonly<ServerFeatures> = Object.freeze({ demoMode: false, devMailbox: false });
+
+/** Reads the server's features strictly: only a literal `true` turns a feature on. */
+export function readFeatures(f: Partial<ServerFeatures> | null | undefined): ServerFeatures {
+  return { demoMode: f?.demoMode === true, devMailbox: f?.devMailbox === true };
+}
+
+/** The signed-in user, the CSRF token, the server's features and role helpers. */
 export const useSessionStore = defineStore('session', () => {
   const user = ref<SessionUser | null>(null);
   const csrfToken = ref<string | null>(null);
+  /** What the server offers (sent with sign-in and `GET /auth/me`); the UI only hides, the server enforces. */
+  const features = ref<ServerFeatures>({ ...NO_FEATURES });
   const status = ref<SessionStatus>('unknown');
   const error = ref<string | null>(null);
   let restoring: Promise<void> | null = null;
@@ -23,6 +33,10 @@ export const useSessionStore = defineStore('session', () => {
   /** Technicians and admins send settings to controllers. */
   const canChangeSettings = computed(() => role.value === 'admin' || role.value === 'technician');
   const unitSystem = computed<UnitSystemPref>(() => user.value?.unitSystem ?? 'imperial');
+  /** Admins see the dev mailbox only when the server captures mail (SMTP_FAKE). */
+  const showDevMailbox = computed(() => isAdmin.value && features.value.devMailbox);
+  /** Admins may inject simulated faults only when the server runs in demo mode. */
+  const canInjectFaults = computed(() => isAdmin.value && features.value.demoMode);
 
   function hasRole(roles: readonly Role[] | undefined): boolean {
     if (!roles || roles.length === 0) return isSignedIn.value;
@@ -32,6 +46,7 @@ export const useSessionStore = defineStore('session', () => {
   function apply(info: SessionInfo) {
     user.value = info.user;
     csrfToken.value = info.csrfToken;
+    features.value = readFeatures(info.features);
     status.value = 'ready';
     error.value = null;
   }
@@ -40,6 +55,7 @@ export const useSessionStore = defineStore('session', () => {
   function clear() {
     user.value = null;
     csrfToken.value = null;
+    features.value = { ...NO_FEATURES };
     status.value = 'ready';
   }
 
@@ -104,6 +120,7 @@ export const useSessionStore = defineStore('session', () => {
   return {
     user,
     csrfToken,
+    features,
     status,
     error,
     isSignedIn,
@@ -113,6 +130,8 @@ export const useSessionStore = defineStore('session', () => {
     isManager,
     canChangeSettings,
     unitSystem,
+    showDevMailbox,
+    canInjectFaults,
     hasRole,
     apply,
     clear,

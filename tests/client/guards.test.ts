@@ -72,7 +72,7 @@ describe('route guards', () => {
 });
 
 describe('navigation by role', () => {
-  const names = (role: Role, dev = false) => navFor(role, dev).flatMap((g) => g.items.map((i) => i.name));
+  const names = (role: Role, devMailbox = false) => navFor(role, { demoMode: false, devMailbox }).flatMap((g) => g.items.map((i) => i.name));
   it('shows managers the fleet and field tools only', () => {
     expect(names('manager')).toEqual(['fleet', 'tool-pt', 'tool-superheat']);
   });

@@ -6,7 +6,7 @@ import { createMemoryHistory, type Router } from 'vue-router';
 import { NConfigProvider } from 'naive-ui';
 import { vi } from 'vitest';
 import type { Role, UnitSystemPref } from '@shared/domain';
-import type { SessionUser } from '@shared/schemas/auth';
+import type { ServerFeatures, SessionInfo, SessionUser } from '@shared/schemas/auth';
 import TheProviders from '@/components/TheProviders.vue';
 import { createAppRouter } from '@/router';
 import { useSessionStore } from '@/stores/session';
@@ -54,19 +54,31 @@ export function makeUser(role: Role, unitSystem: UnitSystemPref = 'imperial'): S
   return { id: 7, email: `${role}@example.com`, name: `Test ${role}`, role, customerId: role === 'manager' ? 3 : null, unitSystem };
 }
 
-export function setup(opts: { role?: Role | null; unitSystem?: UnitSystemPref; unknownSession?: boolean } = {}): { pinia: Pinia; router: Router } {
+/** Server features for a test: everything off unless asked for. */
+export function makeFeatures(f: Partial<ServerFeatures> = {}): ServerFeatures {
+  return { demoMode: false, devMailbox: false, ...f };
+}
+
+/** A sign-in / `GET /auth/me` answer as the server sends it. */
+export function makeSessionInfo(role: Role, opts: { unitSystem?: UnitSystemPref; csrfToken?: string; features?: Partial<ServerFeatures> } = {}): SessionInfo {
+  return { user: makeUser(role, opts.unitSystem), csrfToken: opts.csrfToken ?? 'csrf-test-token', features: makeFeatures(opts.features) };
+}
+
+export function setup(
+  opts: { role?: Role | null; unitSystem?: UnitSystemPref; unknownSession?: boolean; features?: Partial<ServerFeatures> } = {},
+): { pinia: Pinia; router: Router } {
   const pinia = createPinia();
   setActivePinia(pinia);
   const session = useSessionStore(pinia);
-  if (opts.role) session.apply({ user: makeUser(opts.role, opts.unitSystem), csrfToken: 'csrf-test-token' });
+  if (opts.role) session.apply(makeSessionInfo(opts.role, { unitSystem: opts.unitSystem, features: opts.features }));
   else if (!opts.unknownSession) session.clear();
   const router = createAppRouter(pinia, createMemoryHistory());
   return { pinia, router };
 }
 
 /** Mounts a view inside NConfigProvider + TheProviders with pinia and router installed. */
-export function mountView(view: Component, ctx: { pinia: Pinia; router: Router }) {
-  const Host = defineComponent({ render: () => h(NConfigProvider, null, { default: () => h(TheProviders, null, { default: () => h(view) }) }) });
+export function mountView(view: Component, ctx: { pinia: Pinia; router: Router }, props: Record<string, unknown> = {}) {
+  const Host = defineComponent({ render: () => h(NConfigProvider, null, { default: () => h(TheProviders, null, { default: () => h(view, props) }) }) });
   return mount(Host, { global: { plugins: [ctx.pinia, ctx.router] }, attachTo: document.body });
 }
 

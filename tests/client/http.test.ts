@@ -3,7 +3,7 @@ import { flushPromises } from '@vue/test-utils';
 import { ApiError, configureHttp, http, humanSentence } from '@/api/http';
 import { installHttpWiring } from '@/api/wiring';
 import { useSessionStore } from '@/stores/session';
-import { problem, json, setup, stubFetch } from './helpers';
+import { problem, json, makeFeatures, setup, stubFetch } from './helpers';
 
 afterEach(() => {
   vi.unstubAllGlobals();
@@ -135,7 +135,7 @@ describe('401 handling', () => {
     installHttpWiring(router, pinia);
     let posts = 0;
     const { calls } = stubFetch((c) => {
-      if (c.url === '/api/v1/auth/me') return json(200, { user: useSessionStore(pinia).user, csrfToken: 'fresh-token' });
+      if (c.url === '/api/v1/auth/me') return json(200, { user: useSessionStore(pinia).user, csrfToken: 'fresh-token', features: makeFeatures() });
       posts += 1;
       return posts === 1 ? problem(403, { type: 'https://rimehold.example.com/problems/csrf', title: 'Invalid CSRF token' }) : json(201, { id: 5 });
     });

@@ -49,7 +49,7 @@ describe('SignInView', () => {
     const user = makeUser('technician');
     const { calls } = stubFetch((c) => {
       if (c.url === '/api/v1/auth/csrf') return json(200, { csrfToken: 'form-token' });
-      if (c.url === '/api/v1/auth/login') return json(200, { user, csrfToken: 'session-token' });
+      if (c.url === '/api/v1/auth/login') return json(200, { user, csrfToken: 'session-token', features: { demoMode: true, devMailbox: false } });
       return json(200, []);
     });
     const { wrapper, router, pinia } = await rigSignIn('/tools/superheat');
@@ -64,6 +64,7 @@ describe('SignInView', () => {
     const session = useSessionStore(pinia);
     expect(session.user?.role).toBe('technician');
     expect(session.csrfToken).toBe('session-token');
+    expect(session.features).toEqual({ demoMode: true, devMailbox: false });
   });
 
   it('shows the server problem for wrong credentials', async () => {
