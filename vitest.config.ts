@@ -14,11 +14,14 @@ export default defineConfig({
   test: {
     env: { TZ: 'UTC' },
     projects: [
-      { resolve: { alias }, test: { name: 'shared', environment: 'node', include: ['tests/shared/**/*.test.ts', 'tests/simulator/**/*.test.ts'] } },
+      { resolve: { alias }, test: { name: 'shared', sequence: { groupOrder: 0 }, environment: 'node', include: ['tests/shared/**/*.test.ts', 'tests/simulator/**/*.test.ts'] } },
       {
         resolve: { alias },
         test: {
           name: 'server',
+          // Projects of a later group start after the earlier group finished: the server tests stop
+          // MariaDB for 30 s, which must not overlap the browser tests.
+          sequence: { groupOrder: 1 },
           environment: 'node',
           include: ['tests/server/**/*.test.ts'],
           globalSetup: ['tests/server/globalSetup.ts'],
@@ -29,11 +32,12 @@ export default defineConfig({
           env: { TZ: 'UTC' },
         },
       },
-      { plugins: [vue()], resolve: { alias }, test: { name: 'client', environment: 'happy-dom', include: ['tests/client/**/*.test.ts'] } },
+      { plugins: [vue()], resolve: { alias }, test: { name: 'client', sequence: { groupOrder: 0 }, environment: 'happy-dom', include: ['tests/client/**/*.test.ts'] } },
       {
         resolve: { alias },
         test: {
           name: 'browser',
+          sequence: { groupOrder: 2 },
           environment: 'node',
           include: ['tests/browser/**/*.test.ts'],
           pool: 'forks',

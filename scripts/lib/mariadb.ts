@@ -185,7 +185,8 @@ export class MariaInstance {
   /** Stops mariadbd if this process (or, with force, anyone) started it; waits for a clean exit. */
   async stop(force = false): Promise<void> {
     if (!this.ownsProcess && !force) return;
-    const pid = this.child?.pid ?? this.runningPid();
+    // The pid file names whoever runs on this data directory now (a test may have restarted it).
+    const pid = this.runningPid() ?? this.child?.pid;
     if (!pid || !pidAlive(pid)) return;
     process.kill(pid, 'SIGTERM');
     const deadline = Date.now() + 60_000;

@@ -93,6 +93,8 @@ export class ReadingWriter {
       password: config.DB_PASSWORD,
       database: config.DB_NAME,
       connectionLimit: connections,
+      // No background refill: while the database is down that refill rejects with nobody to catch it.
+      minimumIdle: 0,
       acquireTimeout: 5000,
       connectTimeout: 3000,
       dateStrings: true,

@@ -2,11 +2,13 @@
 import type { BoxDto } from '@shared/schemas/boxes';
 import type { FleetBoxStatus, ReadingDto } from '@shared/schemas/live';
 
+/** Creation times of the invented rows (not reading times). */
 export const NOW_ISO = '2030-01-15T12:00:00.000Z';
 
+/** A reading taken just now (real clock) unless `ts` is given. */
 export function makeReading(over: Partial<ReadingDto> = {}): ReadingDto {
   return {
-    ts: NOW_ISO,
+    ts: new Date().toISOString(),
     seq: 100,
     boxAirC: 2.5,
     suctionKPaG: 120,
