@@ -93,14 +93,16 @@ export class ReadingWriter {
       password: config.DB_PASSWORD,
       database: config.DB_NAME,
       connectionLimit: connections,
-      // No background refill: while the database is down that refill rejects with nobody to catch it.
-      minimumIdle: 0,
       acquireTimeout: 5000,
       connectTimeout: 3000,
       dateStrings: true,
       timezone: 'Z',
       initSql: "SET time_zone = '+00:00'",
     });
+    // The pool reports a failed background refill as an 'error' event; without a listener that
+    // event would crash the process during a database outage. Failing queries are what the
+    // ingest acts on, so the event itself only needs to be heard.
+    (this.pool as unknown as NodeJS.EventEmitter).on('error', () => undefined);
   }
 
   /** True when a trivial query succeeds. */

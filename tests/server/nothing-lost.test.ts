@@ -11,6 +11,7 @@ import type { FleetController } from '../../simulator/fleetFile';
 import { provisionBox, startTelemetryServer, waitFor } from './helpers/telemetry';
 
 const DB_OUTAGE_MS = Number(process.env.TEST_DB_OUTAGE_MS ?? 30_000);
+const quiet = { info: () => {}, warn: () => {}, error: () => {} };
 const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
 let srv: RunningServer;
@@ -73,7 +74,7 @@ describe('nothing is lost', () => {
       });
     }
     // Simulated time runs 60x from two hours ago: a reading every 10 simulated s is 6 per real s per controller.
-    fleet = await startFleet({ controllers, url: srv.mqttUrl ?? '', speed: 60, startAgoS: 7200, intervalS: 10, firstSeq: 0, faultChannel: false, reconnectMinMs: 100, reconnectMaxMs: 1000 });
+    fleet = await startFleet({ controllers, url: srv.mqttUrl ?? '', speed: 60, startAgoS: 7200, intervalS: 10, firstSeq: 0, faultChannel: false, reconnectMinMs: 100, reconnectMaxMs: 1000, logger: quiet });
     await sleep(3000);
 
     // 1. Broker restart: controllers buffer while it is down and replay in order afterwards.
