@@ -49,8 +49,11 @@ const EnvSchema = z.object({
    * nothing is dropped; it resumes once the ingest catches up.
    */
   MQTT_INGEST_QUEUE_LIMIT: z.coerce.number().int().min(100).default(200_000),
-  /** level: durable sessions on disk (default). memory: for measuring only, loses sessions on restart. */
-  MQTT_PERSISTENCE: z.enum(['level', 'memory']).default('level'),
+  /**
+   * journal: durable sessions on disk (default). level: aedes-persistence-level, for comparison.
+   * memory: for measuring only, loses sessions on restart.
+   */
+  MQTT_PERSISTENCE: z.enum(['journal', 'level', 'memory']).default('journal'),
   /** Directory of the embedded broker's durable session store (default DATA_DIR/broker). */
   MQTT_PERSISTENCE_DIR: z.string().optional(),
   SMTP_HOST: z.string().default('127.0.0.1'),

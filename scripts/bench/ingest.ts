@@ -7,8 +7,9 @@
  *   3. the pipeline: the real server (broker → ingest → MariaDB → WebSocket) with many lightweight
  *      controller connections, then the count check: published = stored, none stored twice.
  * Everything runs on 127.0.0.1 with its own MariaDB instance (.data/mariadb-bench).
- * Options: BENCH_SECONDS (default 20), BENCH_CONTROLLERS (default 400), BENCH_WINDOW (in-flight per connection,
- * default 4), BENCH_LATENCY_RATE (msg/s offered in the fixed-rate latency phase, default 1000).
+ * The pipeline is driven open-loop at rising offered rates (BENCH_RATES, msg/s) until it stops keeping up.
+ * Options: BENCH_SECONDS per step (default 10), BENCH_CONTROLLERS (default 400), BENCH_WINDOW (broker-alone
+ * in-flight per connection, default 4), BENCH_PERSISTENCE=memory to see what the durable broker store costs.
  */
 import { spawn } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
@@ -23,10 +24,10 @@ import { MariaInstance } from '../lib/mariadb';
 
 process.env.TZ = 'UTC';
 const root = path.resolve(path.dirname(new URL(import.meta.url).pathname), '..', '..');
-const SECONDS = Number(process.env.BENCH_SECONDS ?? 20);
+const SECONDS = Number(process.env.BENCH_SECONDS ?? 10);
 const CONTROLLERS = Number(process.env.BENCH_CONTROLLERS ?? 400);
 const WINDOW = Number(process.env.BENCH_WINDOW ?? 4);
-const LATENCY_RATE = Number(process.env.BENCH_LATENCY_RATE ?? 1000);
+const RATES = (process.env.BENCH_RATES ?? '500,1000,2000,3000,4000,6000').split(',').map(Number);
 
 async function freePort(start: number): Promise<number> {
   for (let p = start; p < start + 50; p++) {
@@ -71,7 +72,7 @@ Object.assign(process.env, {
   NODE_ENV: 'test', DB_HOST: '127.0.0.1', DB_PORT: String(port), DB_NAME: db.name, DB_USER: db.user, DB_PASSWORD: db.password, DB_EXTERNAL: '1',
   PORT: '0', MQTT_PORT: '0', SMTP_FAKE: '0', LOG_LEVEL: 'warn', DEMO_MODE: '0', SESSION_SECRET: randomBytes(24).toString('base64url'),
   MQTT_PERSISTENCE_DIR: mkdtempSync(path.join(os.tmpdir(), 'rimehold-bench-broker-')),
-  MQTT_PERSISTENCE: process.env.BENCH_PERSISTENCE ?? 'level',
+  MQTT_PERSISTENCE: process.env.BENCH_PERSISTENCE ?? 'journal',
 });
 
 const { loadConfig } = await import('../../server/config');
@@ -184,7 +185,7 @@ try {
       const total = Number(r.total);
       for (const [k, v] of Object.entries(r.published as Record<string, number>)) published[k] = v;
       totalPublished += total;
-      const deadline = Date.now() + 60_000;
+      const deadline = Date.now() + 120_000;
       let stored = (await count()) - before;
       let lastChange = Date.now();
       while (stored < total && Date.now() < deadline) {
@@ -208,8 +209,20 @@ try {
       };
     };
 
-    await phase('throughput', 0, 0);
-    await phase('latencyAtFixedRate', LATENCY_RATE, 10_000_000);
+    // Open-loop steps of rising offered rate; the sustained figure is the highest step the
+    // pipeline kept up with (stored during the load ≥ 95 % of offered, p99 under 1 s).
+    const steps: Array<Record<string, unknown>> = [];
+    for (const [i, rate] of RATES.entries()) {
+      await phase(`rate${rate}`, rate, (i + 1) * 10_000_000);
+      const r = results[`rate${rate}`] as { publishedPerS: number; storedDuringLoadPerS: number; latencyP99Ms: number | null };
+      steps.push(r);
+      if (r.storedDuringLoadPerS < 0.95 * r.publishedPerS || (r.latencyP99Ms ?? Infinity) > 1000) break;
+    }
+    const kept = steps.filter((r) => Number(r.storedDuringLoadPerS) >= 0.95 * Number(r.publishedPerS) && Number(r.latencyP99Ms ?? Infinity) <= 1000);
+    const best = kept[kept.length - 1];
+    results.sustainedStoredPerS = best ? best.storedDuringLoadPerS : 0;
+    results.sustainedLatencyP50Ms = best ? best.latencyP50Ms : null;
+    results.sustainedLatencyP99Ms = best ? best.latencyP99Ms : null;
 
     const [chk] = await srv.ctx.sequelize.query<{ n: number; distinct_seq: number }>('SELECT COUNT(*) AS n, COUNT(DISTINCT box_id, seq) AS distinct_seq FROM readings', { type: QueryTypes.SELECT });
     const perBox = await srv.ctx.sequelize.query<{ serial: string; max_seq: number }>('SELECT c.serial, MAX(r.seq) AS max_seq FROM readings r JOIN controllers c ON c.box_id = r.box_id GROUP BY c.serial', { type: QueryTypes.SELECT });
@@ -230,9 +243,8 @@ try {
     results.batches = bs.batches;
     results.meanBatchSize = Math.round(bs.mean);
     results.meanCommitMs = Number((it.mean * 1000).toFixed(1));
-    const tp = results.throughput as { storedPerS: number };
-    results.ratioToBrokerAlone = Number((tp.storedPerS / Number(results.brokerAloneMsgPerS)).toFixed(2));
-    results.ratioToDbAlone = Number((tp.storedPerS / Number(results.dbAloneRowsPerS)).toFixed(2));
+    results.ratioToBrokerAlone = Number((Number(results.sustainedStoredPerS) / Number(results.brokerAloneMsgPerS)).toFixed(2));
+    results.ratioToDbAlone = Number((Number(results.sustainedStoredPerS) / Number(results.dbAloneRowsPerS)).toFixed(2));
   }
   await srv.stop();
 } finally {

@@ -1,6 +1,6 @@
 /**
  * The embedded MQTT broker (aedes 1.x, MQTT 3.1.1) with a durable session store on disk
- * (aedes-persistence-level), device sign-in against the controllers table and a topic ACL:
+ * (journalPersistence.ts), device sign-in against the controllers table and a topic ACL:
  * a controller publishes only under rimehold/v1/ctl/{its serial}/ and subscribes only to its own
  * config/set. The ingest is an ordinary client of this broker (or of an external one).
  */
@@ -11,6 +11,7 @@ import { Aedes, type AuthenticateError, type Client } from 'aedes';
 // The package's main export wraps this in the callback API of aedes 0.x; aedes 1.x wants the async class.
 import AsyncLevelPersistence from 'aedes-persistence-level/asyncPersistence.js';
 import { Level } from 'level';
+import { JournalPersistence } from './journalPersistence';
 import type { Logger } from '../logger';
 import type { Models } from '../models';
 import type { EventBus } from '../events/bus';
@@ -24,7 +25,7 @@ export interface BrokerOptions {
   host: string;
   port: number;
   persistenceDir: string;
-  persistence?: 'level' | 'memory';
+  persistence?: 'journal' | 'level' | 'memory';
   ingestUser: string;
   ingestPassword: string;
   simUser: string | null;
@@ -76,9 +77,11 @@ export class EmbeddedBroker {
   async start(): Promise<number> {
     const o = this.o;
     mkdirSync(o.persistenceDir, { recursive: true });
-    // 'memory' exists only to measure what the durable store costs (bench); it loses sessions on restart.
-    this.db = o.persistence === 'memory' ? null : new Level(o.persistenceDir);
-    const persistence = this.db ? new AsyncLevelPersistence(this.db) : undefined;
+    // journal (default): durable, see journalPersistence.ts. level: aedes-persistence-level, kept
+    // for comparison in bench:ingest. memory: loses sessions on restart, for measuring only.
+    const kind = o.persistence ?? 'journal';
+    this.db = kind === 'level' ? new Level(o.persistenceDir) : null;
+    const persistence = this.db ? new AsyncLevelPersistence(this.db) : kind === 'journal' ? new JournalPersistence({ dir: o.persistenceDir }) : undefined;
     const aedes = await Aedes.createBroker({
       ...(persistence ? { persistence } : {}),
       concurrency: 1000,

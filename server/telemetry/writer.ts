@@ -142,10 +142,19 @@ export class ReadingWriter {
         }
       }
       await conn.beginTransaction();
-      const placeholders = unique.map(() => '(?,?)').join(',');
-      const keyParams = unique.flatMap((r) => [r.boxId, sqlTs(Date.parse(r.ts))]);
-      const existing: Array<{ box_id: number; ts: string }> = await conn.query(`SELECT box_id, ts FROM readings WHERE (box_id, ts) IN (${placeholders})`, keyParams);
-      const existingKeys = new Set(existing.map((e) => `${e.box_id}|${e.ts.slice(0, 23)}`));
+      // Readings of a box arrive in time order, so one newer than the box's latest stored reading is
+      // new for certain. Only the others (re-deliveries after a crash or reconnect) are looked up.
+      const doubtful = unique.filter((r) => {
+        const p = this.prev.get(r.boxId);
+        return p !== undefined && Date.parse(r.ts) <= p.tsMs;
+      });
+      let existingKeys = new Set<string>();
+      if (doubtful.length > 0) {
+        const placeholders = doubtful.map(() => '(?,?)').join(',');
+        const keyParams = doubtful.flatMap((r) => [r.boxId, sqlTs(Date.parse(r.ts))]);
+        const existing: Array<{ box_id: number; ts: string }> = await conn.query(`SELECT box_id, ts FROM readings WHERE (box_id, ts) IN (${placeholders})`, keyParams);
+        existingKeys = new Set(existing.map((e) => `${e.box_id}|${e.ts.slice(0, 23)}`));
+      }
       const fresh = unique.filter((r) => !existingKeys.has(`${r.boxId}|${sqlTs(Date.parse(r.ts))}`));
       fresh.sort((a, c) => a.boxId - c.boxId || Date.parse(a.ts) - Date.parse(c.ts));
       if (fresh.length > 0) {
