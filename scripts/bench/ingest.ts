@@ -27,7 +27,7 @@ const root = path.resolve(path.dirname(new URL(import.meta.url).pathname), '..',
 const SECONDS = Number(process.env.BENCH_SECONDS ?? 10);
 const CONTROLLERS = Number(process.env.BENCH_CONTROLLERS ?? 400);
 const WINDOW = Number(process.env.BENCH_WINDOW ?? 4);
-const RATES = (process.env.BENCH_RATES ?? '500,1000,2000,3000,4000,6000').split(',').map(Number);
+const RATES = (process.env.BENCH_RATES ?? '1000,2000,4000,6000,8000,10000').split(',').map(Number);
 
 async function freePort(start: number): Promise<number> {
   for (let p = start; p < start + 50; p++) {
@@ -209,20 +209,24 @@ try {
       };
     };
 
-    // Open-loop steps of rising offered rate; the sustained figure is the highest step the
-    // pipeline kept up with (stored during the load ≥ 95 % of offered, p99 under 1 s).
+    // Open-loop steps of rising offered rate until the pipeline stops keeping up.
     const steps: Array<Record<string, unknown>> = [];
     for (const [i, rate] of RATES.entries()) {
       await phase(`rate${rate}`, rate, (i + 1) * 10_000_000);
       const r = results[`rate${rate}`] as { publishedPerS: number; storedDuringLoadPerS: number; latencyP99Ms: number | null };
       steps.push(r);
-      if (r.storedDuringLoadPerS < 0.95 * r.publishedPerS || (r.latencyP99Ms ?? Infinity) > 1000) break;
+      if (r.storedDuringLoadPerS < 0.95 * r.publishedPerS) break;
     }
-    const kept = steps.filter((r) => Number(r.storedDuringLoadPerS) >= 0.95 * Number(r.publishedPerS) && Number(r.latencyP99Ms ?? Infinity) <= 1000);
-    const best = kept[kept.length - 1];
+    // Sustained: the highest step stored as it came (≥ 95 % of offered during the load) with p99
+    // publish → WebSocket under 250 ms (the target); keptUp: the same without the latency bound.
+    const keeps = (r: Record<string, unknown>) => Number(r.storedDuringLoadPerS) >= 0.95 * Number(r.publishedPerS);
+    const best = steps.filter((r) => keeps(r) && Number(r.latencyP99Ms ?? Infinity) <= 250).pop();
+    const kept = steps.filter(keeps).pop();
     results.sustainedStoredPerS = best ? best.storedDuringLoadPerS : 0;
     results.sustainedLatencyP50Ms = best ? best.latencyP50Ms : null;
     results.sustainedLatencyP99Ms = best ? best.latencyP99Ms : null;
+    results.keptUpStoredPerS = kept ? kept.storedDuringLoadPerS : 0;
+    results.keptUpLatencyP99Ms = kept ? kept.latencyP99Ms : null;
 
     const [chk] = await srv.ctx.sequelize.query<{ n: number; distinct_seq: number }>('SELECT COUNT(*) AS n, COUNT(DISTINCT box_id, seq) AS distinct_seq FROM readings', { type: QueryTypes.SELECT });
     const perBox = await srv.ctx.sequelize.query<{ serial: string; max_seq: number }>('SELECT c.serial, MAX(r.seq) AS max_seq FROM readings r JOIN controllers c ON c.box_id = r.box_id GROUP BY c.serial', { type: QueryTypes.SELECT });
