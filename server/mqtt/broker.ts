@@ -40,8 +40,11 @@ export interface BrokerOptions {
 type Principal = { kind: 'controller'; serial: string } | { kind: 'ingest' } | { kind: 'sim' };
 
 const CONTROLLER_PUBLISH = new Set(['telemetry', 'status', 'config/ack']);
-/** The ingest acknowledged nothing for this long while telemetry waits: treat its session as stalled. */
-const STALL_MS = 1500;
+/**
+ * The ingest acknowledged nothing for this long while telemetry waits: treat its session as stalled.
+ * Long enough that a slow commit under load never trips it (a reconnect discards uncommitted work).
+ */
+const STALL_MS = 10_000;
 
 function authError(code: 4 | 5, message: string): AuthenticateError {
   const err = new Error(message) as AuthenticateError;
@@ -137,10 +140,11 @@ export class EmbeddedBroker {
         this.lastIngestAckAt = Date.now();
       }
     });
-    // Seen under load with aedes 1.2 + aedes-persistence-level 9.2: a few QoS 1 messages stay in the
-    // ingest session's stored queue, undelivered, until the session reconnects. When telemetry is
-    // waiting and the ingest has acknowledged nothing for STALL_MS, drop its connection: it comes
-    // straight back (clean: false) and the broker replays the stored queue.
+    // Seen under load with aedes 1.2 + aedes-persistence-level 9.2 (hence the journal store): a few
+    // QoS 1 messages stayed in the ingest session's stored queue, undelivered, until the session
+    // reconnected. As a last resort, when telemetry is waiting and the ingest has acknowledged
+    // nothing for STALL_MS, drop its connection: it comes straight back (clean: false) and the
+    // broker replays the stored queue.
     this.watchdog = setInterval(() => this.checkStall(), 1000);
     this.watchdog.unref();
     aedes.on('clientDisconnect', (client) => {

@@ -5,6 +5,25 @@ import type { BoxInfo } from './convert';
 
 const NEGATIVE_TTL_MS = 30_000;
 
+type ControllerRow = InstanceType<Models['Controller']>;
+
+function toInfo(ctl: ControllerRow): BoxInfo | null {
+  const box = (ctl as unknown as { box?: InstanceType<Models['Box']> & { site?: InstanceType<Models['Site']> } }).box;
+  if (!box || !box.site) return null;
+  return {
+    boxId: box.id,
+    customerId: box.customerId,
+    controllerId: ctl.id,
+    serial: ctl.serial,
+    refrigerant: box.refrigerant,
+    saturationMethod: box.saturationMethod,
+    valveType: box.valveType,
+    elevationM: box.site.elevationM,
+    valveFullSteps: ctl.valveFullSteps,
+    disabled: ctl.disabled,
+  };
+}
+
 export class BoxCache {
   private bySerial = new Map<string, BoxInfo>();
   private unknown = new Map<string, number>();
@@ -39,28 +58,26 @@ export class BoxCache {
     return p;
   }
 
+  /** Loads every controller's box in one query (at ingest start, so a fleet's first readings need no lookups). */
+  async preload(): Promise<number> {
+    const rows = await this.models.Controller.findAll({ include: [{ model: this.models.Box, as: 'box', include: [{ model: this.models.Site, as: 'site' }] }] });
+    for (const ctl of rows) {
+      const info = toInfo(ctl);
+      if (info) this.bySerial.set(ctl.serial, info);
+    }
+    return rows.length;
+  }
+
   private async load(serial: string): Promise<BoxInfo | null> {
     const ctl = await this.models.Controller.findOne({
       where: { serial },
       include: [{ model: this.models.Box, as: 'box', include: [{ model: this.models.Site, as: 'site' }] }],
     });
-    const box = (ctl as unknown as { box?: InstanceType<Models['Box']> & { site?: InstanceType<Models['Site']> } } | null)?.box;
-    if (!ctl || !box || !box.site) {
+    const info = ctl ? toInfo(ctl) : null;
+    if (!info) {
       this.unknown.set(serial, Date.now());
       return null;
     }
-    const info: BoxInfo = {
-      boxId: box.id,
-      customerId: box.customerId,
-      controllerId: ctl.id,
-      serial,
-      refrigerant: box.refrigerant,
-      saturationMethod: box.saturationMethod,
-      valveType: box.valveType,
-      elevationM: box.site.elevationM,
-      valveFullSteps: ctl.valveFullSteps,
-      disabled: ctl.disabled,
-    };
     this.bySerial.set(serial, info);
     this.unknown.delete(serial);
     return info;

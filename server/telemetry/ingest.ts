@@ -72,6 +72,7 @@ export class Ingest {
   /** Connects and subscribes; resolves once subscribed. */
   async start(): Promise<void> {
     this.stopped = false;
+    await this.o.boxes.preload().catch((err: unknown) => this.o.logger.warn({ err }, 'box preload failed; boxes load on first reading'));
     this.touchTimer = setInterval(() => void this.touch(), 10_000);
     await this.connect();
   }
