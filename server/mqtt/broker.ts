@@ -64,6 +64,7 @@ export class EmbeddedBroker {
   private aedes: Aedes | null = null;
   private server: net.Server | null = null;
   private db: Level | null = null;
+  private journal: JournalPersistence | null = null;
   private principals = new WeakMap<Client, Principal>();
   /** Telemetry published by controllers and not yet acknowledged by the ingest. */
   private ingestQueueDepth = 0;
@@ -84,7 +85,8 @@ export class EmbeddedBroker {
     // for comparison in bench:ingest. memory: loses sessions on restart, for measuring only.
     const kind = o.persistence ?? 'journal';
     this.db = kind === 'level' ? new Level(o.persistenceDir) : null;
-    const persistence = this.db ? new AsyncLevelPersistence(this.db) : kind === 'journal' ? new JournalPersistence({ dir: o.persistenceDir }) : undefined;
+    this.journal = kind === 'journal' ? new JournalPersistence({ dir: o.persistenceDir }) : null;
+    const persistence = this.db ? new AsyncLevelPersistence(this.db) : (this.journal ?? undefined);
     const aedes = await Aedes.createBroker({
       ...(persistence ? { persistence } : {}),
       concurrency: 1000,
@@ -250,5 +252,8 @@ export class EmbeddedBroker {
     if (server) await new Promise<void>((resolve) => server.close(() => resolve()));
     if (this.db) await this.db.close().catch(() => undefined);
     this.db = null;
+    // aedes.close() does not destroy its persistence: flush and close the journal here.
+    if (this.journal) await this.journal.destroy().catch(() => undefined);
+    this.journal = null;
   }
 }

@@ -1,0 +1,49 @@
+/** The steps `npm start` and `npm run dev` share: .env, MariaDB, migrations, the demo seed. */
+import { spawn, type ChildProcess } from 'node:child_process';
+import path from 'node:path';
+import { ensureEnvFile } from './env';
+import { ensureDatabase } from './database';
+import type { Config } from '../../server/config';
+import type { MariaInstance } from './mariadb';
+
+export const ROOT = path.resolve(path.dirname(new URL(import.meta.url).pathname), '..', '..');
+
+export interface Prepared {
+  config: Config;
+  /** The project instance this process started (or reused), or null with DB_EXTERNAL=1. */
+  instance: MariaInstance | null;
+  fleetFile: string;
+}
+
+/** Creates .env if needed, brings up MariaDB, migrates and seeds the demo once. */
+export async function prepare(log: (l: string) => void = console.log): Promise<Prepared> {
+  if (ensureEnvFile(ROOT)) log('created .env from .env.example with generated secrets');
+  // The config module reads .env, so import it after the file exists.
+  const { loadConfig } = await import('../../server/config');
+  const config = loadConfig();
+  const instance = await ensureDatabase(config, 'mariadb', log);
+  const { createSequelize } = await import('../../server/db/sequelize');
+  const { migrateUp } = await import('../../server/db/migrate');
+  const { initModels } = await import('../../server/models');
+  const { seedDemo } = await import('../../server/seed/seed');
+  const fleetFile = path.join(config.DATA_DIR, 'demo-controllers.json');
+  const sequelize = createSequelize(config);
+  try {
+    const applied = await migrateUp(sequelize);
+    if (applied.length) log(`migrations applied: ${applied.join(', ')}`);
+    const seeded = await seedDemo(sequelize, initModels(sequelize), fleetFile);
+    log(seeded.created ? 'demo scenario seeded' : 'demo scenario already present');
+  } finally {
+    await sequelize.close();
+  }
+  return { config, instance, fleetFile };
+}
+
+/** Starts the simulator for the demo fleet as a child process. */
+export function startSimulator(config: Config, fleetFile: string): ChildProcess {
+  return spawn(process.execPath, [path.join(ROOT, 'node_modules', 'tsx', 'dist', 'cli.mjs'), path.join(ROOT, 'simulator', 'cli.ts'), '--fleet', fleetFile], {
+    cwd: ROOT,
+    stdio: ['ignore', 'ignore', 'inherit'],
+    env: { ...process.env, TZ: 'UTC', MQTT_PORT: String(config.MQTT_PORT) },
+  });
+}
