@@ -42,7 +42,8 @@ export class JournalPersistence extends MemoryPersistence {
   private file: FileHandle | null = null;
   private readonly journalPath: string;
   private buffer: string[] = [];
-  private waiters: Array<() => void> = [];
+  private waiters: Array<{ resolve: () => void; reject: (e: unknown) => void }> = [];
+  private closed = false;
   private flushing = false;
   private scheduled = false;
   private bytes = 0;
@@ -117,10 +118,12 @@ export class JournalPersistence extends MemoryPersistence {
   /** Queues a record; resolves after it is on disk. */
   private append(r: Rec): Promise<void> {
     if (this.replaying) return Promise.resolve();
+    // After destroy (aedes closing its clients) nothing is journalled any more.
+    if (this.closed) return Promise.resolve();
     const line = `${encode(r)}\n`;
     this.buffer.push(line);
     this.records++;
-    const done = new Promise<void>((resolve) => this.waiters.push(resolve));
+    const done = new Promise<void>((resolve, reject) => this.waiters.push({ resolve, reject }));
     if (!this.scheduled) {
       this.scheduled = true;
       setImmediate(() => void this.flush());
@@ -137,10 +140,15 @@ export class JournalPersistence extends MemoryPersistence {
       const waiters = this.waiters;
       this.buffer = [];
       this.waiters = [];
-      await this.file.write(chunk);
-      if (this.o.sync !== false) await this.file.datasync();
-      this.bytes += Buffer.byteLength(chunk);
-      for (const w of waiters) w();
+      try {
+        await this.file.write(chunk);
+        if (this.o.sync !== false) await this.file.datasync();
+        this.bytes += Buffer.byteLength(chunk);
+        for (const w of waiters) w.resolve();
+      } catch (err) {
+        // Not on disk: the publishes waiting on it are not acknowledged (the devices resend).
+        for (const w of waiters) w.reject(err);
+      }
     }
     this.flushing = false;
     if (this.bytes > (this.o.compactBytes ?? 64 * 2 ** 20) && !this.compacting) {
@@ -239,7 +247,9 @@ export class JournalPersistence extends MemoryPersistence {
   }
 
   override async destroy(): Promise<void> {
-    while (this.flushing || this.buffer.length) {
+    if (this.closed) return;
+    this.closed = true;
+    while (this.flushing || (this.buffer.length && this.file)) {
       if (!this.flushing) await this.flush();
       else await new Promise((r) => setImmediate(r));
     }

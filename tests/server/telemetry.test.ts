@@ -203,3 +203,26 @@ describe('broker sign-in and ACL', () => {
     ).rejects.toThrow();
   });
 });
+
+describe('broker durability', () => {
+  it('keeps telemetry queued for the offline ingest across a broker restart', async () => {
+    const p = await provisionBox(srv);
+    const ingest = srv.ingest;
+    const broker = srv.broker;
+    if (!ingest || !broker) throw new Error('embedded broker and ingest expected');
+    await ingest.kill();
+    const c = await connectController(url, p.serial, p.secret);
+    const sent = [reading(), reading(), reading(), reading(), reading()].map((r, i) => ({ ...r, ts: new Date(Date.now() - 10_000 + i * 1000).toISOString() }));
+    // Each publish resolves on the broker's PUBACK, i.e. after it is in the journal.
+    for (const r of sent) await publishTelemetry(c, p.serial, r);
+    c.end(true);
+    await broker.stop();
+    await broker.start();
+    await ingest.start();
+    const rows = await waitFor(async () => {
+      const rs = await storedRows(srv, p.box.id);
+      return rs.length === sent.length ? rs : null;
+    });
+    expect(rows.map((r) => Number(r.seq))).toEqual(sent.map((r) => r.seq));
+  });
+});
