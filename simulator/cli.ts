@@ -65,7 +65,21 @@ export function parseCli(argv: string[], env: NodeJS.ProcessEnv): CliOptions {
   return { fleetPath: values.fleet, url, intervalS, speed, startAgoS, durationS, faults, faultChannel: !values['no-fault-channel'] };
 }
 
+export const USAGE = `npm run simulate -- [options]
+  --fleet FILE          fleet file (default .data/demo-controllers.json, written by npm start)
+  --url URL             broker on loopback (default mqtt://127.0.0.1:$MQTT_PORT or 1883)
+  --interval S          telemetry interval in simulated seconds (default 10)
+  --speed N             simulated seconds per real second (default 1)
+  --start-ago S         start the simulated clock S seconds in the past
+  --duration S          stop after S real seconds
+  --fault SERIAL:FAULT[:SENSOR]   start with a fault (repeatable); faults: ${FAULT_NAMES.join(', ')}
+  --no-fault-channel    do not listen for faults injected from the UI`;
+
 async function main(): Promise<void> {
+  if (process.argv.includes('--help') || process.argv.includes('-h')) {
+    console.log(USAGE);
+    return;
+  }
   const logger = consoleLogger();
   const opts = parseCli(process.argv.slice(2), process.env);
   const file = await readFleetFile(opts.fleetPath);
