@@ -7,9 +7,9 @@
 import { spawn, spawnSync } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
 import { existsSync, mkdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
-import net from 'node:net';
 import path from 'node:path';
 import { MariaInstance } from './lib/mariadb';
+import { firstFreePort } from './lib/ports';
 import { ensureClientBuilt } from './lib/build';
 
 const root = path.resolve(path.dirname(new URL(import.meta.url).pathname), '..');
@@ -20,25 +20,19 @@ const root = path.resolve(path.dirname(new URL(import.meta.url).pathname), '..')
 async function claimPort(start: number): Promise<{ port: number; release: () => void }> {
   const lockDir = path.join(root, '.data', 'locks');
   mkdirSync(lockDir, { recursive: true });
-  for (let p = start; p < start + 50; p++) {
-    const lock = path.join(lockDir, `test-db-${p}.pid`);
-    if (existsSync(lock)) {
-      const owner = Number(readFileSync(lock, 'utf8'));
-      try {
-        process.kill(owner, 0);
-        continue; // another run owns it
-      } catch {
-        // stale lock
-      }
+  const lockOf = (p: number) => path.join(lockDir, `test-db-${p}.pid`);
+  const claimedByLiveRun = (p: number) => {
+    if (!existsSync(lockOf(p))) return false;
+    try {
+      process.kill(Number(readFileSync(lockOf(p), 'utf8')), 0);
+      return true;
+    } catch {
+      return false; // stale lock
     }
-    const free = await new Promise<boolean>((resolve) => {
-      const srv = net.createServer().once('error', () => resolve(false)).listen(p, '127.0.0.1', () => srv.close(() => resolve(true)));
-    });
-    if (!free) continue;
-    writeFileSync(lock, String(process.pid));
-    return { port: p, release: () => rmSync(lock, { force: true }) };
-  }
-  throw new Error(`no free port from ${start}`);
+  };
+  const port = await firstFreePort(start, claimedByLiveRun);
+  writeFileSync(lockOf(port), String(process.pid));
+  return { port, release: () => rmSync(lockOf(port), { force: true }) };
 }
 
 const claim = await claimPort(Number(process.env.TEST_DB_PORT ?? 3308));

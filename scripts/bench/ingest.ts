@@ -14,13 +14,13 @@
 import { spawn } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
 import { mkdtempSync } from 'node:fs';
-import net from 'node:net';
 import os from 'node:os';
 import path from 'node:path';
 import mariadb from 'mariadb';
 import mqtt from 'mqtt';
 import { QueryTypes } from 'sequelize';
 import { MariaInstance } from '../lib/mariadb';
+import { firstFreePort } from '../lib/ports';
 
 process.env.TZ = 'UTC';
 const root = path.resolve(path.dirname(new URL(import.meta.url).pathname), '..', '..');
@@ -28,16 +28,6 @@ const SECONDS = Number(process.env.BENCH_SECONDS ?? 10);
 const CONTROLLERS = Number(process.env.BENCH_CONTROLLERS ?? 400);
 const WINDOW = Number(process.env.BENCH_WINDOW ?? 4);
 const RATES = (process.env.BENCH_RATES ?? '1000,2000,4000,6000,8000,10000').split(',').map(Number);
-
-async function freePort(start: number): Promise<number> {
-  for (let p = start; p < start + 50; p++) {
-    const ok = await new Promise<boolean>((resolve) => {
-      const s = net.createServer().once('error', () => resolve(false)).listen(p, '127.0.0.1', () => s.close(() => resolve(true)));
-    });
-    if (ok) return p;
-  }
-  throw new Error('no free port');
-}
 
 function runLoad(argv: string[], onReady?: () => void): Promise<Record<string, unknown>> {
   return new Promise((resolve, reject) => {
@@ -62,7 +52,7 @@ function runLoad(argv: string[], onReady?: () => void): Promise<Record<string, u
   });
 }
 
-const port = await freePort(3310);
+const port = await firstFreePort(3310);
 const db = { name: 'rimehold_bench', user: 'rimehold_bench', password: randomBytes(18).toString('base64url') };
 const instance = new MariaInstance({ dataDir: path.join(root, '.data', `mariadb-bench-${port}`), port, bufferPoolMiB: 1024, redoLogMiB: 512, log: () => {} });
 await instance.start();
@@ -81,7 +71,7 @@ const { migrateUp } = await import('../../server/db/migrate');
 const { startServer } = await import('../../server/main');
 const { hashDeviceSecret } = await import('../../server/controllers/secrets');
 const { hashSecret } = await import('../../server/auth/passwords');
-const { sqlTs } = await import('../../server/telemetry/writer');
+const { sqlTs } = await import('../../server/db/sequelize');
 const { EmbeddedBroker } = await import('../../server/mqtt/broker');
 const { EventBus } = await import('../../server/events/bus');
 const { createTelemetryMetrics } = await import('../../server/telemetry/metrics');

@@ -17,14 +17,13 @@ async function publish(): Promise<void> {
   const creds = JSON.parse(args.get('--creds') ?? '[]') as Array<{ serial: string; secret: string }>;
   const seconds = Number(args.get('--seconds') ?? 10);
   const window = Number(args.get('--window') ?? 8);
-  const topicOverride = args.get('--topic');
   /** Total messages per second across all connections; 0 = as fast as the broker acknowledges. */
   const rate = Number(args.get('--rate') ?? 0);
   const clients: MqttClient[] = [];
   for (const c of creds) {
     clients.push(
       await mqtt.connectAsync(url, {
-        clientId: topicOverride ? `rimehold-bench-${c.serial}` : `ctl-${c.serial}`,
+        clientId: `ctl-${c.serial}`,
         username: c.serial,
         password: c.secret,
         protocolVersion: 4,
@@ -35,7 +34,6 @@ async function publish(): Promise<void> {
   }
   const published = new Map<string, number>();
   const start = Date.now();
-  process.stderr.write('');
   const end = start + seconds * 1000;
   let total = 0;
   await Promise.all(
@@ -44,7 +42,7 @@ async function publish(): Promise<void> {
       if (!client) return;
       let seq = Number(args.get('--seq-base') ?? 0);
       let lastTs = 0;
-      const topic = topicOverride ?? `rimehold/v1/ctl/${c.serial}/telemetry`;
+      const topic = `rimehold/v1/ctl/${c.serial}/telemetry`;
       const one = async () => {
         while (Date.now() < end) {
           const now = Math.max(Date.now(), lastTs + 1);

@@ -21,7 +21,7 @@ export function createSequelize(config: Config, logger?: Logger): Sequelize {
   });
 }
 
-/** Formats a Date as the UTC `YYYY-MM-DD HH:MM:SS.mmm` string MariaDB DATETIME(3) takes in raw SQL. */
-export function sqlDate(d: Date): string {
-  return d.toISOString().replace('T', ' ').slice(0, 23);
+/** Formats epoch ms as the UTC `YYYY-MM-DD HH:MM:SS.mmm` string MariaDB DATETIME(3) takes in raw SQL. */
+export function sqlTs(ms: number): string {
+  return new Date(ms).toISOString().replace('T', ' ').slice(0, 23);
 }

@@ -6,6 +6,7 @@
  * the ingest drops its connection without acknowledging, waits for the database and reconnects.
  */
 import mqtt, { type IPublishPacket, type MqttClient } from 'mqtt';
+import type { z } from 'zod';
 import type { Logger } from '../logger';
 import type { EventBus } from '../events/bus';
 import type { Models } from '../models';
@@ -41,6 +42,19 @@ type Item =
   | { kind: 'none'; messageId: number | undefined; gen: number }
   /** Waiting for the box lookup of a cold cache; never part of a batch until resolved. */
   | { kind: 'lookup'; messageId: number | undefined; gen: number; done: Promise<void> };
+
+/** JSON.parse then the schema; a failure names its reject reason and what was wrong. */
+function parseJsonPayload<S extends z.ZodType>(payload: Buffer, schema: S): { ok: true; data: z.infer<S> } | { ok: false; reason: 'bad-json' | 'schema'; detail: string } {
+  let json: unknown;
+  try {
+    json = JSON.parse(payload.toString('utf8'));
+  } catch {
+    return { ok: false, reason: 'bad-json', detail: 'not JSON' };
+  }
+  const r = schema.safeParse(json);
+  if (!r.success) return { ok: false, reason: 'schema', detail: r.error.issues.map((i) => `${i.path.join('.')}: ${i.message}`).join('; ') };
+  return { ok: true, data: r.data };
+}
 
 /** Thrown into mqtt.js's handleMessage callback: it skips its own PUBACK, we send ours after the commit. */
 const DEFER = new Error('ack deferred until commit');
@@ -149,16 +163,12 @@ export class Ingest {
       return this.enqueue(s.success ? { kind: 'status', messageId, gen, serial: t.serial, online: s.data === 'online' } : { kind: 'none', messageId, gen });
     }
     if (t.kind === 'config/ack') {
-      let parsed: unknown;
-      try {
-        parsed = JSON.parse(payload.toString('utf8'));
-      } catch {
-        this.reject(t.serial, 'bad-json', 'config/ack');
+      const a = parseJsonPayload(payload, ConfigAckPayload);
+      if (!a.ok) {
+        this.reject(t.serial, a.reason, a.detail);
         return this.enqueue({ kind: 'none', messageId, gen });
       }
-      const a = ConfigAckPayload.safeParse(parsed);
-      if (!a.success) this.reject(t.serial, 'schema', a.error.issues[0]?.message ?? 'config/ack');
-      return this.enqueue(a.success ? { kind: 'ack', messageId, gen, serial: t.serial, ack: a.data } : { kind: 'none', messageId, gen });
+      return this.enqueue({ kind: 'ack', messageId, gen, serial: t.serial, ack: a.data });
     }
     if (t.kind !== 'telemetry') {
       this.reject(t.serial, 'topic', packet.topic);
@@ -168,16 +178,9 @@ export class Ingest {
       this.reject(t.serial, 'too-large', `${payload.length} bytes`);
       return this.enqueue({ kind: 'none', messageId, gen });
     }
-    let json: unknown;
-    try {
-      json = JSON.parse(payload.toString('utf8'));
-    } catch {
-      this.reject(t.serial, 'bad-json', 'not JSON');
-      return this.enqueue({ kind: 'none', messageId, gen });
-    }
-    const r = TelemetryPayload.safeParse(json);
-    if (!r.success) {
-      this.reject(t.serial, 'schema', r.error.issues.map((i) => `${i.path.join('.')}: ${i.message}`).join('; '));
+    const r = parseJsonPayload(payload, TelemetryPayload);
+    if (!r.ok) {
+      this.reject(t.serial, r.reason, r.detail);
       return this.enqueue({ kind: 'none', messageId, gen });
     }
     const tsMs = Date.parse(r.data.ts);

@@ -2,7 +2,7 @@
 import { QueryTypes, type Sequelize } from 'sequelize';
 import type { FleetBoxStatus, ReadingDto, ReadingPoint, ReadingsResponse, Resolution } from '../../shared/schemas/live';
 import type { SessionUser } from '../../shared/schemas/auth';
-import { sqlTs } from './writer';
+import { sqlTs } from '../db/sequelize';
 
 const HOUR = 3_600_000;
 

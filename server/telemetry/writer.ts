@@ -6,6 +6,7 @@
  */
 import mariadb from 'mariadb';
 import type { Config } from '../config';
+import { sqlTs } from '../db/sequelize';
 import type { ConvertedReading } from './convert';
 
 /** A state is held until the next reading, but never credited for more than this (a gap is not data). */
@@ -42,10 +43,6 @@ interface Agg {
   doorMs: number;
 }
 
-/** `YYYY-MM-DD HH:MM:SS.mmm` in UTC for DATETIME(3). */
-export function sqlTs(ms: number): string {
-  return new Date(ms).toISOString().replace('T', ' ').slice(0, 23);
-}
 
 const RAW_SQL =
   'INSERT IGNORE INTO readings (box_id, ts, seq, received_at, refrigerant, box_air_c, suction_kpa_g, suction_line_c, saturated_suction_c, superheat_k, coil_inlet_c, discharge_air_c, liquid_kpa_g, liquid_line_c, subcooling_k, valve_steps, valve_percent, compressor_on, fan_on, defrost_on, door_open) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)';
@@ -70,14 +67,6 @@ export interface FlushResult {
 export function isTransientError(e: unknown): boolean {
   const errno = (e as { errno?: number })?.errno;
   return errno === 1213 || errno === 1205;
-}
-
-/** True for errors that mean the database is unreachable (as opposed to a bad statement). */
-export function isConnectionError(e: unknown): boolean {
-  const err = e as { fatal?: boolean; code?: string; sqlState?: string; errno?: number };
-  if (err?.fatal) return true;
-  if (typeof err?.sqlState === 'string' && err.sqlState.startsWith('08')) return true;
-  return ['ECONNREFUSED', 'ECONNRESET', 'ETIMEDOUT', 'EPIPE', 'ER_GET_CONNECTION_TIMEOUT', 'ER_CONNECTION_ALREADY_CLOSED', 'ER_SOCKET_UNEXPECTED_CLOSE', 'ER_POOL_ALREADY_CLOSED'].includes(err?.code ?? '');
 }
 
 export class ReadingWriter {

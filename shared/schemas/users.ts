@@ -1,5 +1,6 @@
 import { z } from 'zod';
 import { ROLES, UNIT_SYSTEMS } from '../domain';
+import type { SessionUser } from './auth';
 
 const base = {
   email: z.string().trim().toLowerCase().email('Enter an e-mail address').max(190),
@@ -22,13 +23,8 @@ export const UserUpdateBody = z
   .refine((u) => u.role === undefined || u.role !== 'manager' || (u.customerId ?? null) !== null, msg);
 export type UserUpdateBody = z.infer<typeof UserUpdateBody>;
 
-export interface UserDto {
-  id: number;
-  email: string;
-  name: string;
-  role: (typeof ROLES)[number];
-  customerId: number | null;
-  unitSystem: (typeof UNIT_SYSTEMS)[number];
+/** A user as admins see it: the session fields plus account state. */
+export interface UserDto extends SessionUser {
   disabled: boolean;
   invitedAt: string | null;
   passwordSet: boolean;

@@ -4,18 +4,13 @@
  * TRADE-NOTES §2: off-cycle for coolers (ACHR 110983); electric for freezers ending near 10 °C coil
  * with a 35–45 min fail-safe (hvacfun; walk-in I&O manual); fans back at about −4 °C coil.
  */
-import type { DefrostType } from '../../shared/domain';
+import type { BoxSettings } from './params';
 
 export type DefrostPhase = 'none' | 'defrost' | 'drip' | 'fan-delay';
 export type DefrostEndReason = 'temperature' | 'time';
 
-export interface DefrostConfig {
-  defrostType: DefrostType;
-  defrostIntervalH: number;
-  defrostMaxMin: number;
-  defrostTerminationC: number;
-  dripMin: number;
-  fanDelayMin: number;
+/** The box's defrost settings (see BoxSettings) plus the fan-restart coil temperature. */
+export interface DefrostConfig extends Pick<BoxSettings, 'defrostType' | 'defrostIntervalH' | 'defrostMaxMin' | 'defrostTerminationC' | 'dripMin' | 'fanDelayMin'> {
   /** Coil temperature at which the fans restart after a heated defrost, °C. */
   fanStartCoilC: number;
 }

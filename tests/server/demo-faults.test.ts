@@ -1,6 +1,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { QueryTypes } from 'sequelize';
 import type { RunningServer } from '../../server/main';
+import { sqlTs } from '../../server/db/sequelize';
 import { startFleet, type Fleet } from '../../simulator/fleet';
 import { factories, signIn } from './helpers/app';
 import { provisionBox, startTelemetryServer, waitFor } from './helpers/telemetry';
@@ -52,7 +53,7 @@ describe('POST /api/v1/demo/faults', () => {
     // …and the controller now reports the door open.
     const open = await waitFor(async () => {
       const rows = await srv.ctx.sequelize.query<{ n: number }>('SELECT COUNT(*) AS n FROM readings WHERE box_id = ? AND door_open = 1 AND ts >= ?', {
-        replacements: [b.id, new Date(Date.now() - 5 * 60_000).toISOString().replace('T', ' ').slice(0, 23)],
+        replacements: [b.id, sqlTs(Date.now() - 5 * 60_000)],
         type: QueryTypes.SELECT,
       });
       return Number(rows[0]?.n) > 0;
