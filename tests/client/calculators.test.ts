@@ -127,6 +127,7 @@ describe('SuperheatView', () => {
     await w.find('[data-test="sh-coil-inlet"]').setValue('20');
     await w.find('[data-test="sh-suction-line"]').setValue('30');
     await flushPromises();
+    // Common practice: two-thermistor superheat = suction-line − coil-inlet temperature (30 − 20 °F).
     expect(firstNumber(testText(w, 'sh-result'))).toBeCloseTo(10, 5);
     expect(testText(w, 'sh-glide-warning')).toMatch(/overstate superheat/);
   });
