@@ -15,11 +15,10 @@ const { DEMO_USERS } = await import('../server/seed/demoData');
 const running = await startServer(config);
 const simulator: ChildProcess | null = config.DEMO_MODE ? startSimulator(config, fleetFile) : null;
 
+const signIns = config.DEMO_MODE ? `Demo sign-ins (demo mode only):\n${DEMO_USERS.map((u) => `  ${u.role.padEnd(10)} ${u.email.padEnd(36)} ${u.password}`).join('\n')}\n` : '';
 console.log(`
 Rimehold is running at ${running.url}
-Demo sign-ins:
-${DEMO_USERS.map((u) => `  ${u.role.padEnd(10)} ${u.email.padEnd(36)} ${u.password}`).join('\n')}
-${config.SMTP_FAKE ? `Captured e-mail: ${running.url}/admin/mailbox (admins)\n` : ''}Press Ctrl-C to stop.`);
+${signIns}${config.SMTP_FAKE ? `Captured e-mail: ${running.url}/admin/mailbox (admins)\n` : ''}Press Ctrl-C to stop.`);
 
 let stopping = false;
 async function shutdown(signal: string) {

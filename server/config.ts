@@ -73,6 +73,27 @@ const EnvSchema = z.object({
 
 export type Config = z.infer<typeof EnvSchema> & { publicUrl: string };
 
+/** The secrets a production install must set itself (their defaults are public, in this file). */
+export const PRODUCTION_SECRETS = ['SESSION_SECRET', 'DB_PASSWORD', 'MQTT_INGEST_PASSWORD', 'MQTT_SIM_PASSWORD'] as const;
+/** Placeholders and sample values seen in .env.example and the docs: never a real secret. */
+const EXAMPLE_SECRET = /^(GENERATED|change-?me.*|changeme|secret|password|example.*|dev-only.*|rimehold.*)$/i;
+
+/**
+ * Why a parsed environment must not run in production, one sentence each (empty when fine):
+ * demo mode, the fake SMTP server, and any secret left at its default or an example value.
+ */
+export function productionRefusals(c: z.infer<typeof EnvSchema>): string[] {
+  const out: string[] = [];
+  if (c.DEMO_MODE) out.push('DEMO_MODE is on: demo people, businesses and passwords exist only in demo mode (set DEMO_MODE=0).');
+  if (c.SMTP_FAKE) out.push('SMTP_FAKE is on: the local fake SMTP server keeps mail on this machine (set SMTP_FAKE=0 and the SMTP_* of your relay).');
+  const defaults = EnvSchema.parse({});
+  for (const key of PRODUCTION_SECRETS) {
+    const value = c[key];
+    if (value === defaults[key] || EXAMPLE_SECRET.test(value) || value.length < 16) out.push(`${key} is a default, example or short value: set a random secret of at least 16 characters.`);
+  }
+  return out;
+}
+
 /** Parses an environment into a Config; throws one error listing every bad variable. */
 export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
   const parsed = EnvSchema.safeParse(env);
@@ -81,8 +102,9 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     throw new Error(`Invalid configuration:\n${lines.join('\n')}`);
   }
   const c = parsed.data;
-  if (c.NODE_ENV === 'production' && c.SESSION_SECRET.startsWith('dev-only')) {
-    throw new Error('Invalid configuration: set SESSION_SECRET in production');
+  if (c.NODE_ENV === 'production') {
+    const refusals = productionRefusals(c);
+    if (refusals.length) throw new Error(`Refusing to start in production:\n${refusals.map((r) => `  ${r}`).join('\n')}`);
   }
   return { ...c, publicUrl: c.PUBLIC_URL ?? `http://${c.HOST === '0.0.0.0' ? '127.0.0.1' : c.HOST}:${c.PORT}` };
 }

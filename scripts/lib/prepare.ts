@@ -25,14 +25,13 @@ export async function prepare(log: (l: string) => void = console.log): Promise<P
   const { createSequelize } = await import('../../server/db/sequelize');
   const { migrateUp } = await import('../../server/db/migrate');
   const { initModels } = await import('../../server/models');
-  const { seedDemo } = await import('../../server/seed/seed');
+  const { prepareContent } = await import('../../server/seed/startup');
   const fleetFile = path.join(config.DATA_DIR, 'demo-controllers.json');
   const sequelize = createSequelize(config);
   try {
     const applied = await migrateUp(sequelize);
     if (applied.length) log(`migrations applied: ${applied.join(', ')}`);
-    const seeded = await seedDemo(sequelize, initModels(sequelize), fleetFile);
-    log(seeded.created ? 'demo scenario seeded' : 'demo scenario already present');
+    await prepareContent(config, sequelize, initModels(sequelize), fleetFile, log);
   } finally {
     await sequelize.close();
   }

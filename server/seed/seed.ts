@@ -79,6 +79,12 @@ export async function seedDemo(sequelize: Sequelize, models: Models, fleetFile: 
   return { created, fleetFile, controllers };
 }
 
+/** E-mail addresses of the demo accounts (whose passwords the README publishes) that are enabled in this database. */
+export async function demoAccountsPresent(models: Models): Promise<string[]> {
+  const rows = await models.User.findAll({ where: { email: DEMO_USERS.map((u) => u.email), disabled: false }, attributes: ['email'] });
+  return rows.map((r) => r.email);
+}
+
 /** Gives every demo controller a fresh secret and writes them with their box settings for the simulator. */
 export async function writeFleetFile(models: Models, fleetFile: string): Promise<number> {
   const rows = await models.Controller.findAll({

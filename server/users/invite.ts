@@ -7,9 +7,7 @@ export const INVITE_VALID_H = 72;
 
 /** Stores a fresh invitation token (hashed) and mails the link; returns the link (for logs in dev only). */
 export async function sendInvitation(ctx: AppContext, user: User): Promise<string> {
-  const token = randomToken();
-  await user.update({ inviteTokenHash: tokenDigest(token), inviteExpiresAt: new Date(Date.now() + INVITE_VALID_H * 3_600_000), invitedAt: new Date() });
-  const link = `${ctx.config.publicUrl}/set-password?token=${token}`;
+  const link = await issueSetPasswordLink(ctx.config.publicUrl, user);
   await ctx.mailer.send({
     to: user.email,
     subject: 'Your Rimehold account',
@@ -24,4 +22,11 @@ export async function sendInvitation(ctx: AppContext, user: User): Promise<strin
     ].join('\n'),
   });
   return link;
+}
+
+/** Stores a fresh single-use set-password token (hashed, valid INVITE_VALID_H hours) and returns its link. */
+export async function issueSetPasswordLink(publicUrl: string, user: User): Promise<string> {
+  const token = randomToken();
+  await user.update({ inviteTokenHash: tokenDigest(token), inviteExpiresAt: new Date(Date.now() + INVITE_VALID_H * 3_600_000), invitedAt: new Date() });
+  return `${publicUrl}/set-password?token=${token}`;
 }
