@@ -11,8 +11,9 @@ import path from 'node:path';
 import { MariaInstance } from './lib/mariadb';
 import { firstFreePort } from './lib/ports';
 import { ensureClientBuilt } from './lib/build';
+import { projectRootFrom } from './lib/root';
 
-const root = path.resolve(path.dirname(new URL(import.meta.url).pathname), '..');
+const root = projectRootFrom(import.meta.url, 1);
 /**
  * The first port from `start` that is free and not claimed by another live test run. The claim
  * (a lock file with our pid) also covers the outage test, which stops the instance for a while.

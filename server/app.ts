@@ -8,7 +8,8 @@ import { pinoHttp } from 'pino-http';
 import { csrfSync } from 'csrf-sync';
 import { PROJECT_ROOT } from './config';
 import type { AppContext } from './context';
-import { apiNotFound, errorMiddleware, problems } from './http/problem';
+import { apiNotFound, errorMiddleware, HttpProblem, problems } from './http/problem';
+import { loggableUrl } from './logger';
 import { createSessionMiddleware } from './http/session';
 import { configurePassport } from './auth/passport';
 import { authRoutes } from './auth/routes';
@@ -27,8 +28,48 @@ export interface CreatedApp {
   passportSession: RequestHandler;
 }
 
+export interface CreateAppOptions {
+  /** The built client to serve (default `<project>/dist/client`); tests point it at a directory of their own. */
+  clientDir?: string;
+}
+
+/** Request body encodings the API decodes; anything else is refused with 415 before the body is read. */
+const BODY_ENCODINGS = new Set(['identity', 'gzip', 'deflate']);
+
+/**
+ * Refuses request targets we cannot answer honestly: an absolute-form target (RFC 9112 §3.2.2)
+ * naming a host other than our public one (we are no proxy; the Host header is the sender's to
+ * choose, so it proves nothing), and a path whose percent-encoding does not decode (`/%c0%ae…`).
+ * An absolute-form target for our own public host is rewritten to its path.
+ */
+const requestTarget = (publicHost: string): RequestHandler => (req, _res, next) => {
+  if (!req.url.startsWith('/') && req.url !== '*') {
+    let target: URL;
+    try {
+      target = new URL(req.url);
+    } catch {
+      return next(problems.badRequest('The request target is neither a path nor an absolute URL.'));
+    }
+    if (target.host !== publicHost) return next(problems.badRequest(`This server does not forward requests to other hosts (${target.host}).`));
+    req.url = `${target.pathname}${target.search}`;
+  }
+  try {
+    decodeURIComponent(req.path);
+  } catch {
+    return next(problems.badRequest('The path has a malformed percent-encoding.'));
+  }
+  next();
+};
+
+/** Refuses a body in an encoding we do not decode (415) instead of guessing. */
+const bodyEncoding: RequestHandler = (req, _res, next) => {
+  const encoding = (req.headers['content-encoding'] ?? 'identity').trim().toLowerCase();
+  if (BODY_ENCODINGS.has(encoding)) return next();
+  next(new HttpProblem(415, 'unsupported-encoding', 'Unsupported content encoding', `Send the body uncompressed, or with Content-Encoding gzip or deflate (not "${encoding.slice(0, 40)}").`));
+};
+
 /** Builds the Express app for a context. */
-export function createApp(ctx: AppContext, settings: SettingsService): CreatedApp {
+export function createApp(ctx: AppContext, settings: SettingsService, opts: CreateAppOptions = {}): CreatedApp {
   const app = express();
   app.disable('x-powered-by');
   app.set('trust proxy', 'loopback');
@@ -44,9 +85,11 @@ export function createApp(ctx: AppContext, settings: SettingsService): CreatedAp
       },
       autoLogging: { ignore: (req) => req.url === '/api/v1/health' },
       customLogLevel: (_req, res, err) => (err || res.statusCode >= 500 ? 'error' : res.statusCode >= 400 ? 'warn' : 'info'),
-      serializers: { req: (req: { id: string; method: string; url: string }) => ({ id: req.id, method: req.method, url: req.url }) },
+      // Query values never reach the log: an invitation's set-password page carries its token there.
+      serializers: { req: (req: { id: string; method: string; url: string }) => ({ id: req.id, method: req.method, url: loggableUrl(req.url) }) },
     }),
   );
+  app.use(requestTarget(new URL(ctx.config.publicUrl).host));
   app.use(
     helmet({
       contentSecurityPolicy: { directives: { upgradeInsecureRequests: null, 'connect-src': ["'self'", 'ws:', 'wss:'] } },
@@ -66,7 +109,7 @@ export function createApp(ctx: AppContext, settings: SettingsService): CreatedAp
   });
 
   const api = Router();
-  api.use(express.json({ limit: '256kb' }));
+  api.use(bodyEncoding, express.json({ limit: '256kb' }));
   api.use(healthRoutes(ctx));
   api.use(sessionMiddleware, passportInitialize, passportSession);
   api.use((req, res, next) => csrf.csrfSynchronisedProtection(req, res, (err?: unknown) => next(err ? problems.csrf() : undefined)));
@@ -92,12 +135,16 @@ export function createApp(ctx: AppContext, settings: SettingsService): CreatedAp
     res.type(ctx.metrics.registry.contentType).send(await ctx.metrics.registry.metrics());
   });
 
-  const clientDir = path.join(PROJECT_ROOT, 'dist', 'client');
-  if (existsSync(clientDir)) {
+  const clientDir = opts.clientDir ?? path.join(PROJECT_ROOT, 'dist', 'client');
+  if (existsSync(path.join(clientDir, 'index.html'))) {
     app.use(express.static(clientDir, { index: false, maxAge: '1h' }));
+    // Single-page fallback: any other non-API path is a client route. A missing asset (under
+    // /assets/ or with a file extension) is a 404, not the app. `root` keeps `send` from refusing
+    // an install path with a dot folder in it (~/.cache/...): it checks dot segments below root only.
     app.get('/{*splat}', (req, res, next) => {
       if (req.path.startsWith('/api/') || req.path === '/ws' || req.path === '/metrics') return next();
-      res.sendFile(path.join(clientDir, 'index.html'));
+      if (req.path.startsWith('/assets/') || path.posix.extname(req.path) !== '') return next(problems.notFound('file'));
+      res.sendFile('index.html', { root: clientDir });
     });
   }
   app.use(errorMiddleware(ctx.logger));

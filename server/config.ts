@@ -4,8 +4,10 @@
  */
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
+import { randomBytes } from 'node:crypto';
 import dotenv from 'dotenv';
 import { z } from 'zod';
+import { DEFAULT_BROKER_LIMITS as BL } from './mqtt/limits';
 
 export const PROJECT_ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 
@@ -40,9 +42,30 @@ const EnvSchema = z.object({
   MQTT_URL: z.string().optional(),
   MQTT_INGEST_USER: z.string().default('rimehold-ingest'),
   MQTT_INGEST_PASSWORD: z.string().default('dev-only-ingest-password'),
-  /** The demo simulator's service account (fault injection topic only). */
+  /** The one client id the ingest account may connect with (the ingest's persistent session). */
+  MQTT_INGEST_CLIENT_ID: z.string().min(1).max(64).default('rimehold-ingest'),
+  /** The demo simulator's service account (subscribes to the fault injection topic only). */
   MQTT_SIM_USER: z.string().default('rimehold-sim'),
-  MQTT_SIM_PASSWORD: z.string().default('dev-only-sim-password'),
+  /** Unset: a random secret per process (hand it to the simulator child through its environment). */
+  MQTT_SIM_PASSWORD: z.string().default(() => randomBytes(24).toString('base64url')),
+  /** The one client id the simulator's account may connect with. */
+  MQTT_SIM_CLIENT_ID: z.string().min(1).max(64).default('rimehold-sim'),
+  /** Largest CONNECT packet the broker reads, bytes (remaining length); the socket is closed beyond. */
+  MQTT_MAX_CONNECT_BYTES: z.coerce.number().int().min(128).default(BL.maxConnectBytes),
+  /** Largest packet of any other kind, bytes (telemetry payloads are at most MAX_TELEMETRY_BYTES). */
+  MQTT_MAX_PACKET_BYTES: z.coerce.number().int().min(4608).default(BL.maxPacketBytes),
+  /** Open MQTT connections at most. */
+  MQTT_MAX_CONNECTIONS: z.coerce.number().int().min(1).default(BL.maxConnections),
+  /** Connections that have not completed CONNECT at most. */
+  MQTT_MAX_PENDING_CONNECTS: z.coerce.number().int().min(1).default(BL.maxPendingConnects),
+  /** A connection that has not completed CONNECT within this is closed, ms. */
+  MQTT_CONNECT_DEADLINE_MS: z.coerce.number().int().min(100).default(BL.connectDeadlineMs),
+  /** Failed device sign-ins from one address before further ones are refused without a lookup. */
+  MQTT_DEVICE_AUTH_FAILURES: z.coerce.number().int().min(1).default(BL.maxDeviceAuthFailures),
+  /** How long such an address is refused, s. */
+  MQTT_DEVICE_AUTH_LOCKOUT_S: z.coerce.number().int().min(1).default(BL.deviceAuthLockoutMs / 1000),
+  /** How long an unknown serial is refused from memory without a lookup, s. */
+  MQTT_UNKNOWN_SERIAL_CACHE_S: z.coerce.number().int().min(0).default(BL.unknownSerialTtlMs / 1000),
   /**
    * Telemetry accepted by the broker but not yet acknowledged by the ingest. At this bound the
    * broker refuses further telemetry (the controller is disconnected and keeps buffering), so

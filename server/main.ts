@@ -19,6 +19,7 @@ import { createTelemetryMetrics } from './telemetry/metrics';
 import { SettingsService } from './telemetry/settings';
 import { scheduleRetention } from './telemetry/partitions';
 import { LiveHub } from './ws/hub';
+import { AlarmService } from './alarms/service';
 
 export interface RunningServer {
   url: string;
@@ -27,6 +28,8 @@ export interface RunningServer {
   server: http.Server;
   broker: EmbeddedBroker | null;
   ingest: Ingest | null;
+  /** The alarm service (with telemetry only). */
+  alarms: AlarmService | null;
   hub: LiveHub;
   /** The MQTT URL controllers connect to (embedded broker), or null. */
   mqttUrl: string | null;
@@ -68,6 +71,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
   let embedded: EmbeddedBroker | null = null;
   let ingest: Ingest | null = null;
   let mqttUrl: string | null = null;
+  let alarms: AlarmService | null = null;
   const brokerStatus: BrokerStatus = {
     mode: !telemetry ? 'none' : config.MQTT_URL ? 'external' : 'embedded',
     state: () => (embedded ? (embedded.up ? 'up' : 'down') : ingest?.connected ? 'up' : 'down'),
@@ -84,8 +88,20 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
         persistence: config.MQTT_PERSISTENCE,
         ingestUser: config.MQTT_INGEST_USER,
         ingestPassword: config.MQTT_INGEST_PASSWORD,
+        ingestClientId: config.MQTT_INGEST_CLIENT_ID,
         simUser: config.DEMO_MODE ? config.MQTT_SIM_USER : null,
         simPassword: config.DEMO_MODE ? config.MQTT_SIM_PASSWORD : null,
+        simClientId: config.MQTT_SIM_CLIENT_ID,
+        limits: {
+          maxConnectBytes: config.MQTT_MAX_CONNECT_BYTES,
+          maxPacketBytes: config.MQTT_MAX_PACKET_BYTES,
+          maxConnections: config.MQTT_MAX_CONNECTIONS,
+          maxPendingConnects: config.MQTT_MAX_PENDING_CONNECTS,
+          connectDeadlineMs: config.MQTT_CONNECT_DEADLINE_MS,
+          maxDeviceAuthFailures: config.MQTT_DEVICE_AUTH_FAILURES,
+          deviceAuthLockoutMs: config.MQTT_DEVICE_AUTH_LOCKOUT_S * 1000,
+          unknownSerialTtlMs: config.MQTT_UNKNOWN_SERIAL_CACHE_S * 1000,
+        },
         ingestQueueLimit: config.MQTT_INGEST_QUEUE_LIMIT,
         models,
         bus,
@@ -101,6 +117,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
       url: config.MQTT_URL ?? mqttUrl ?? '',
       username: config.MQTT_INGEST_USER,
       password: config.MQTT_INGEST_PASSWORD,
+      clientId: config.MQTT_INGEST_CLIENT_ID,
       maxAgeDays: config.RETENTION_RAW_DAYS,
       batchSize: opts.batchSize,
       batchWindowMs: opts.batchWindowMs,
@@ -112,6 +129,10 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
       boxes,
       onConfigAck: (serial, ack) => settings.onAck(serial, ack),
     });
+    // Subscribed before the ingest starts, so no replayed reading passes unevaluated.
+    const alarmService = new AlarmService(ctx);
+    await alarmService.start();
+    alarms = alarmService;
     await ingest.start();
     const ing = ingest;
     ctx.publish = (topic, payload, o) => ing.publish(topic, payload, o);
@@ -121,6 +142,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
       stopRetention();
       settings.stop();
       await ing.stop();
+      await alarmService.stop();
       await writer.close();
       boxes.close();
       await embedded?.stop();
@@ -148,6 +170,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
     server,
     broker: embedded,
     ingest,
+    alarms,
     hub,
     mqttUrl,
     async stop() {

@@ -7,6 +7,7 @@ import { boxRoutes } from './boxes/routes';
 import { controllerRoutes } from './controllers/routes';
 import { auditRoutes } from './audit/routes';
 import { refrigerantRoutes } from './refrigerants/routes';
+import { registerAlarmRoutes } from './alarms/routes';
 
 /** Mounts every feature's router on the API router. */
 export function registerFeatureRoutes(api: Router, ctx: AppContext): void {
@@ -17,5 +18,6 @@ export function registerFeatureRoutes(api: Router, ctx: AppContext): void {
   api.use('/controllers', controllerRoutes(ctx));
   api.use('/audit', auditRoutes(ctx));
   api.use('/refrigerants', refrigerantRoutes());
+  registerAlarmRoutes(api, ctx); // /alarms, /boxes/:id/maintenance, /oncall
   // telemetry routes are mounted by the lead below
 }

@@ -33,10 +33,15 @@ export interface FleetOptions {
   faults?: { serial: string; fault: FaultName; sensor?: ThermistorName }[];
   /** First seq of every controller (default: the real clock in ms at start, so a restarted sim never reuses a seq). */
   firstSeq?: number;
-  /** Subscribe to the fault channel (default true) with these credentials (default MQTT_SIM_USER / MQTT_SIM_PASSWORD). */
+  /**
+   * Subscribe to the fault channel (default true) with these credentials (default MQTT_SIM_USER /
+   * MQTT_SIM_PASSWORD / MQTT_SIM_CLIENT_ID from the environment; no password, no fault channel).
+   */
   faultChannel?: boolean;
   simUser?: string;
   simPassword?: string;
+  /** The one client id the broker accepts for the simulator's account (default 'rimehold-sim'). */
+  simClientId?: string;
   logger?: SimLogger;
   /** Real ms between model advances (default 200). */
   tickMs?: number;
@@ -108,7 +113,9 @@ export async function startFleet(opts: FleetOptions): Promise<Fleet> {
   };
   tick();
   const timer = setInterval(tick, opts.tickMs ?? 200);
-  const faultClient = opts.faultChannel === false ? null : connectFaultChannel(opts, setFault, logger);
+  const simPassword = opts.simPassword ?? process.env.MQTT_SIM_PASSWORD;
+  if (opts.faultChannel !== false && !simPassword) logger.warn('fault channel: no MQTT_SIM_PASSWORD in the environment, not connecting it');
+  const faultClient = opts.faultChannel === false || !simPassword ? null : connectFaultChannel(opts, simPassword, setFault, logger);
   logger.info(`fleet: ${controllers.size} controllers → ${opts.url}, interval ${intervalS} s, speed ${clock.speed}×, sim clock starts ${new Date(clock.simStartMs).toISOString()}`);
 
   return {
@@ -130,11 +137,11 @@ export async function startFleet(opts: FleetOptions): Promise<Fleet> {
   };
 }
 
-function connectFaultChannel(opts: FleetOptions, setFault: (cmd: SimFaultCommand) => boolean, logger: SimLogger): MqttClient {
+function connectFaultChannel(opts: FleetOptions, password: string, setFault: (cmd: SimFaultCommand) => boolean, logger: SimLogger): MqttClient {
   const client = mqtt.connect(opts.url, {
-    clientId: `rimehold-sim-${process.pid}-${Math.random().toString(16).slice(2, 8)}`,
+    clientId: opts.simClientId ?? process.env.MQTT_SIM_CLIENT_ID ?? 'rimehold-sim',
     username: opts.simUser ?? process.env.MQTT_SIM_USER ?? 'rimehold-sim',
-    password: opts.simPassword ?? process.env.MQTT_SIM_PASSWORD ?? 'dev-only-sim-password',
+    password,
     clean: true,
     protocolVersion: 4,
     reconnectPeriod: 5000,

@@ -21,9 +21,10 @@ import mqtt from 'mqtt';
 import { QueryTypes } from 'sequelize';
 import { MariaInstance } from '../lib/mariadb';
 import { firstFreePort } from '../lib/ports';
+import { projectRootFrom } from '../lib/root';
 
 process.env.TZ = 'UTC';
-const root = path.resolve(path.dirname(new URL(import.meta.url).pathname), '..', '..');
+const root = projectRootFrom(import.meta.url, 2);
 const SECONDS = Number(process.env.BENCH_SECONDS ?? 10);
 const CONTROLLERS = Number(process.env.BENCH_CONTROLLERS ?? 400);
 const WINDOW = Number(process.env.BENCH_WINDOW ?? 4);
@@ -127,7 +128,7 @@ try {
   {
     const alone = new EmbeddedBroker({
       host: '127.0.0.1', port: 0, persistenceDir: mkdtempSync(path.join(os.tmpdir(), 'rimehold-bench-alone-')), ingestUser: config.MQTT_INGEST_USER, ingestPassword: config.MQTT_INGEST_PASSWORD,
-      simUser: null, simPassword: null, ingestQueueLimit: 1e9, persistence: config.MQTT_PERSISTENCE, models, bus: new EventBus(), metrics: createTelemetryMetrics(false), logger: srv.ctx.logger,
+      ingestClientId: 'rimehold-null-sub', simUser: null, simPassword: null, ingestQueueLimit: 1e9, persistence: config.MQTT_PERSISTENCE, models, bus: new EventBus(), metrics: createTelemetryMetrics(false), logger: srv.ctx.logger,
     });
     const alonePort = await alone.start();
     const sub = await mqtt.connectAsync(`mqtt://127.0.0.1:${alonePort}`, { clientId: 'rimehold-null-sub', username: config.MQTT_INGEST_USER, password: config.MQTT_INGEST_PASSWORD, clean: false, protocolVersion: 4 });

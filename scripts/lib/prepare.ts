@@ -3,10 +3,11 @@ import { spawn, type ChildProcess } from 'node:child_process';
 import path from 'node:path';
 import { ensureEnvFile } from './env';
 import { ensureDatabase } from './database';
+import { projectRootFrom } from './root';
 import type { Config } from '../../server/config';
 import type { MariaInstance } from './mariadb';
 
-export const ROOT = path.resolve(path.dirname(new URL(import.meta.url).pathname), '..', '..');
+export const ROOT = projectRootFrom(import.meta.url, 2);
 
 export interface Prepared {
   config: Config;
@@ -43,6 +44,6 @@ export function startSimulator(config: Config, fleetFile: string): ChildProcess 
   return spawn(process.execPath, [path.join(ROOT, 'node_modules', 'tsx', 'dist', 'cli.mjs'), path.join(ROOT, 'simulator', 'cli.ts'), '--fleet', fleetFile], {
     cwd: ROOT,
     stdio: ['ignore', 'ignore', 'inherit'],
-    env: { ...process.env, TZ: 'UTC', MQTT_PORT: String(config.MQTT_PORT) },
+    env: { ...process.env, TZ: 'UTC', MQTT_PORT: String(config.MQTT_PORT), MQTT_SIM_USER: config.MQTT_SIM_USER, MQTT_SIM_PASSWORD: config.MQTT_SIM_PASSWORD, MQTT_SIM_CLIENT_ID: config.MQTT_SIM_CLIENT_ID },
   });
 }

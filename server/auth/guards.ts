@@ -1,4 +1,4 @@
-/** Route guards and tenant scoping. Every route that reads tenant data goes through scopeWhere(). */
+/** Route guards. Tenant scope (scopeWhere, scopeSql, canSeeCustomer) lives in ./scope.ts and is re-exported here. */
 import type { Request, RequestHandler } from 'express';
 import type { Role } from '../../shared/domain';
 import type { SessionUser } from '../../shared/schemas/auth';
@@ -21,16 +21,5 @@ export function requireRole(...roles: Role[]): RequestHandler {
 
 export const requireAuth = requireRole();
 
-/** A `where` fragment limiting rows with a `customerId` column to the user's tenant. */
-export function scopeWhere(user: SessionUser): { customerId?: number } {
-  if (user.role === 'manager') {
-    // A manager without a customer sees nothing (customer id 0 never exists).
-    return { customerId: user.customerId ?? 0 };
-  }
-  return {};
-}
-
-/** True when the user may see rows of this customer. */
-export function canSeeCustomer(user: SessionUser, customerId: number): boolean {
-  return user.role !== 'manager' || user.customerId === customerId;
-}
+// Tenant scope lives in ./scope.ts; re-exported so existing imports keep working.
+export { canSeeCustomer, scopeSql, scopeWhere, scopedCustomerId } from './scope';

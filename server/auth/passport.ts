@@ -3,7 +3,6 @@ import { Passport, type PassportStatic } from 'passport';
 import { Strategy as LocalStrategy } from 'passport-local';
 import type { SessionUser } from '../../shared/schemas/auth';
 import type { Models, User } from '../models';
-import { problems } from '../http/problem';
 import { verifySecret } from './passwords';
 
 declare global {
@@ -31,9 +30,12 @@ export function configurePassport(models: Models): PassportStatic {
     new LocalStrategy({ usernameField: 'email', passwordField: 'password' }, (email, password, done) => {
       void (async () => {
         const user = await models.User.findOne({ where: { email: email.trim().toLowerCase() } });
+        // Unknown, disabled, locked and wrong password all answer the same 401 after one bcrypt
+        // compare each: a different status or a faster answer would tell which addresses exist.
+        const matches = await verifySecret(password, user?.passwordHash ?? null);
         if (!user || user.disabled) return done(null, false);
-        if (user.lockedUntil && user.lockedUntil.getTime() > Date.now()) return done(problems.locked(user.lockedUntil));
-        if (!(await verifySecret(password, user.passwordHash))) {
+        if (user.lockedUntil && user.lockedUntil.getTime() > Date.now()) return done(null, false);
+        if (!matches) {
           const failed = user.failedLogins + 1;
           const lock = failed >= LOCK_AFTER_FAILURES ? new Date(Date.now() + LOCK_MINUTES * 60_000) : null;
           await user.update({ failedLogins: lock ? 0 : failed, lockedUntil: lock });

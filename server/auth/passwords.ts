@@ -9,9 +9,19 @@ export function hashSecret(plain: string): Promise<string> {
   return bcrypt.hash(plain, ROUNDS);
 }
 
-/** True when the plain text matches the bcrypt hash. */
-export function verifySecret(plain: string, hash: string | null): Promise<boolean> {
-  if (!hash) return Promise.resolve(false);
+let decoyHash: Promise<string> | undefined;
+
+/**
+ * True when the plain text matches the bcrypt hash. Without a hash (unknown account, password
+ * never set) it still runs one compare against a decoy of the same cost, so the answer takes the
+ * same time and does not reveal whether the account exists.
+ */
+export async function verifySecret(plain: string, hash: string | null): Promise<boolean> {
+  if (!hash) {
+    decoyHash ??= bcrypt.hash(randomToken(), ROUNDS);
+    await bcrypt.compare(plain, await decoyHash);
+    return false;
+  }
   return bcrypt.compare(plain, hash);
 }
 

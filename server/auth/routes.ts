@@ -86,6 +86,8 @@ export function authRoutes(ctx: AppContext, passport: PassportStatic, csrf: Csrf
     });
     if (!user) throw problems.unprocessable('invalid-invite', 'Link not valid', 'This set-password link is unknown, used or expired. Ask your administrator for a new invitation.');
     await user.update({ passwordHash: await hashSecret(body.password), inviteTokenHash: null, inviteExpiresAt: null, failedLogins: 0, lockedUntil: null });
+    // Sockets opened under the old password are authorised afresh.
+    ctx.bus.emit('userAccessChanged', { userId: user.id, changed: ['password'] });
     await audit(models, req, { action: 'user.password-set', entityType: 'user', entityId: user.id, customerId: user.customerId });
     res.status(204).end();
   });

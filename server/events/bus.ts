@@ -2,6 +2,7 @@
 import { EventEmitter } from 'node:events';
 import type { ReadingDto } from '../../shared/schemas/live';
 import type { SettingsChangeDto } from '../../shared/schemas/settings';
+import type { AlarmDto } from '../../shared/schemas/alarms';
 
 export interface EventBusMap {
   /** A reading was committed to the database. */
@@ -16,6 +17,12 @@ export interface EventBusMap {
   boxChanged: [{ boxId: number }];
   /** A user signed out or was disabled: close their live sockets. */
   userSessionEnded: [{ userId: number }];
+  /** A user's role, customer or account state changed (or their password was reset): live sockets opened as the old user close. */
+  userAccessChanged: [{ userId: number; changed: Array<'role' | 'customerId' | 'disabled' | 'password'> }];
+  /** An alarm changed (raised, cleared, acknowledged, shelved…): the hub forwards it to the tenant. */
+  alarm: [{ boxId: number; customerId: number; alarm: AlarmDto }];
+  /** A box's maintenance window was set (until, epoch ms) or ended (null): the alarm service stops raising for it. */
+  boxMaintenance: [{ boxId: number; untilMs: number | null }];
 }
 
 export class EventBus extends EventEmitter<EventBusMap> {

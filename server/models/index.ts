@@ -9,6 +9,7 @@ import {
   type Sequelize,
 } from 'sequelize';
 import type { BoxKind, DefrostType, Role, SaturationMethod, UnitSystemPref, ValveType } from '../../shared/domain';
+import { alarmModelClasses, initAlarmModels, type AlarmModels } from './alarms';
 
 const id = { type: DataTypes.INTEGER.UNSIGNED, autoIncrement: true, primaryKey: true };
 const ts = { createdAt: DataTypes.DATE(3), updatedAt: DataTypes.DATE(3) };
@@ -126,7 +127,7 @@ export class SettingsChange extends Model<InferAttributes<SettingsChange>, Infer
   declare error: string | null;
 }
 
-export interface Models {
+export interface Models extends AlarmModels {
   Customer: typeof Customer;
   Site: typeof Site;
   Box: typeof Box;
@@ -149,8 +150,10 @@ export function initModels(sequelize: Sequelize): Models {
     User: class extends User {},
     AuditEntry: class extends AuditEntry {},
     SettingsChange: class extends SettingsChange {},
+    ...alarmModelClasses(),
   };
   initInto(sequelize, m);
+  initAlarmModels(sequelize, m);
   return m;
 }
 

@@ -7,7 +7,7 @@
 import net from 'node:net';
 import { mkdirSync } from 'node:fs';
 import type { AddressInfo } from 'node:net';
-import { Aedes, type AuthenticateError, type Client } from 'aedes';
+import { Aedes, type AuthenticateError, type Client, type PublishPacket } from 'aedes';
 // The package's main export wraps this in the callback API of aedes 0.x; aedes 1.x wants the async class.
 import AsyncLevelPersistence from 'aedes-persistence-level/asyncPersistence.js';
 import { Level } from 'level';
@@ -18,6 +18,7 @@ import type { EventBus } from '../events/bus';
 import type { TelemetryMetrics } from '../telemetry/metrics';
 import { parseControllerTopic, TOPIC_PREFIX } from '../../shared/schemas/telemetry';
 import { verifyDeviceSecret } from '../controllers/secrets';
+import { DEFAULT_BROKER_LIMITS, PacketGate, SignInThrottle, type BrokerLimits } from './limits';
 
 export const SIM_FAULT_TOPIC = 'rimehold/v1/sim/fault';
 
@@ -28,8 +29,14 @@ export interface BrokerOptions {
   persistence?: 'journal' | 'level' | 'memory';
   ingestUser: string;
   ingestPassword: string;
+  /** The one client id the ingest account may use (default 'rimehold-ingest'). */
+  ingestClientId?: string;
   simUser: string | null;
   simPassword: string | null;
+  /** The one client id the simulator's account may use (default 'rimehold-sim'). */
+  simClientId?: string;
+  /** Packet, connection and sign-in limits (defaults: DEFAULT_BROKER_LIMITS). */
+  limits?: Partial<BrokerLimits>;
   ingestQueueLimit: number;
   models: Models;
   bus: EventBus;
@@ -40,6 +47,8 @@ export interface BrokerOptions {
 type Principal = { kind: 'controller'; serial: string } | { kind: 'ingest' } | { kind: 'sim' };
 
 const CONTROLLER_PUBLISH = new Set(['telemetry', 'status', 'config/ack']);
+/** A device username is a serial as provisioned (ControllerCreateBody in shared/schemas/boxes.ts). */
+const SERIAL_FORMAT = /^[A-Za-z0-9][A-Za-z0-9_-]{2,39}$/;
 /**
  * The ingest acknowledged nothing for this long while telemetry waits: treat its session as stalled.
  * Long enough that a slow commit under load never trips it (a reconnect discards uncommitted work).
@@ -68,14 +77,22 @@ export class EmbeddedBroker {
   private principals = new WeakMap<Client, Principal>();
   /** Telemetry published by controllers and not yet acknowledged by the ingest. */
   private ingestQueueDepth = 0;
-  private readonly onRevoked = ({ serial }: { serial: string }) => this.kick(serial);
+  private readonly onRevoked = ({ serial }: { serial: string }) => this.dropController(serial);
+  private readonly limits: BrokerLimits;
+  private readonly throttle: SignInThrottle;
+  /** Open sockets, and those that have not completed CONNECT yet (with their deadline timers). */
+  private gates = new Set<PacketGate>();
+  private pending = new Map<PacketGate, NodeJS.Timeout>();
   private lastIngestAckAt = Date.now();
   private watchdog: NodeJS.Timeout | null = null;
   /** Times the stall watchdog had to reconnect the ingest. */
   stallRecoveries = 0;
   port = 0;
 
-  constructor(private readonly o: BrokerOptions) {}
+  constructor(private readonly o: BrokerOptions) {
+    this.limits = { ...DEFAULT_BROKER_LIMITS, ...o.limits };
+    this.throttle = new SignInThrottle({ maxFailures: this.limits.maxDeviceAuthFailures, lockoutMs: this.limits.deviceAuthLockoutMs, unknownSerialTtlMs: this.limits.unknownSerialTtlMs });
+  }
 
   /** Starts the broker and its TCP listener; resolves the port. */
   async start(): Promise<number> {
@@ -105,12 +122,27 @@ export class EmbeddedBroker {
         );
       },
       authorizePublish: (client, packet, done) => {
-        const reason = client ? this.publishRefusal(client, packet.topic) : 'no-client';
+        const reason = client ? this.publishRefusal(client, packet) : 'no-client';
         if (reason) {
           o.metrics.refused.inc({ reason });
           return done(new Error(reason));
         }
-        done(null);
+        // aedes writes a QoS 1 PUBACK before it hands the message to the store: a controller's
+        // publish is journalled (group commit, fdatasync) here first, so no acknowledged reading
+        // is lost at a crash. Past the journal's size bound it is refused: the device keeps it.
+        const journal = this.journal;
+        if (!journal || !client || packet.qos !== 1 || this.principals.get(client)?.kind !== 'controller') return done(null);
+        if (!journal.acceptsIncoming()) {
+          o.metrics.refused.inc({ reason: 'journal-full' });
+          return done(new Error('journal-full'));
+        }
+        journal.appendIncoming(client.id, packet.topic, Buffer.from(packet.payload)).then(
+          () => done(null),
+          (err: Error) => {
+            o.metrics.refused.inc({ reason: 'journal-write' });
+            done(err);
+          },
+        );
       },
       authorizeSubscribe: (client, sub, done) => {
         if (!this.maySubscribe(client, sub.topic)) {
@@ -134,6 +166,7 @@ export class EmbeddedBroker {
       }
     });
     aedes.on('clientReady', (client) => {
+      if (client.conn instanceof PacketGate) this.connected(client.conn);
       const kind = this.principals.get(client)?.kind;
       if (kind === 'controller') o.metrics.connectedControllers.inc();
       if (kind === 'ingest') {
@@ -156,9 +189,10 @@ export class EmbeddedBroker {
       o.logger.debug({ clientId: client.id, err: err.message }, 'mqtt client error');
     });
     this.aedes = aedes;
+    this.republishIncoming(aedes);
     o.bus.on('controllerRevoked', this.onRevoked);
 
-    const server = net.createServer(aedes.handle);
+    const server = net.createServer((socket) => this.accept(socket));
     await new Promise<void>((resolve, reject) => {
       server.once('error', reject);
       // A restart keeps the port the controllers know.
@@ -170,36 +204,100 @@ export class EmbeddedBroker {
     return this.port;
   }
 
+  /**
+   * Settles journalled incoming publishes once aedes has handed them on, and publishes again those
+   * that a crash left acknowledged but in no queue (the ingest stores a reading twice only once).
+   */
+  private republishIncoming(aedes: Aedes): void {
+    const journal = this.journal;
+    if (!journal) return;
+    aedes.on('publish', (packet) => {
+      if (packet.qos === 1) journal.settleIncoming(packet.topic, packet.payload);
+    });
+    for (const m of journal.unsettledIncoming()) {
+      aedes.publish({ cmd: 'publish', topic: m.topic, payload: m.payload, qos: 1, retain: false, dup: false }, (err) => {
+        if (err) this.o.logger.warn({ topic: m.topic, err: err.message }, 'journalled publish not re-published');
+      });
+    }
+  }
+
   /** True while the listener is up. */
   get up(): boolean {
     return this.server?.listening === true && this.aedes?.closed === false;
   }
 
+  /** Takes a new TCP socket: closes it over the connection caps, else gates it and hands it to aedes. */
+  private accept(socket: net.Socket): void {
+    const aedes = this.aedes;
+    const l = this.limits;
+    if (!aedes || this.gates.size >= l.maxConnections || this.pending.size >= l.maxPendingConnects) {
+      this.o.metrics.refused.inc({ reason: aedes && this.gates.size >= l.maxConnections ? 'max-connections' : 'max-pending-connects' });
+      socket.destroy();
+      return;
+    }
+    const gate = new PacketGate(socket, l, (reason) => this.o.metrics.refused.inc({ reason }));
+    this.gates.add(gate);
+    const deadline = setTimeout(() => {
+      this.o.metrics.refused.inc({ reason: 'connect-deadline' });
+      gate.destroy();
+    }, l.connectDeadlineMs);
+    deadline.unref();
+    this.pending.set(gate, deadline);
+    gate.on('close', () => {
+      this.gates.delete(gate);
+      this.connected(gate);
+    });
+    aedes.handle(gate);
+  }
+
+  /** The socket completed CONNECT (or closed): no longer pending, no deadline. */
+  private connected(gate: PacketGate): void {
+    const t = this.pending.get(gate);
+    if (t) clearTimeout(t);
+    this.pending.delete(gate);
+  }
+
   private async authenticate(client: Client, username: string | undefined, password: Buffer | undefined): Promise<Principal> {
     const o = this.o;
     const pw = password?.toString() ?? '';
+    // Each service account: its own secret and exactly one client id, so it cannot take over another session.
     if (username === o.ingestUser) {
-      if (!sameSecret(pw, o.ingestPassword) || !client.id.startsWith('rimehold-')) throw authError(4, 'bad-credentials');
+      if (!sameSecret(pw, o.ingestPassword) || client.id !== (o.ingestClientId ?? 'rimehold-ingest')) throw authError(4, 'bad-credentials');
       return { kind: 'ingest' };
     }
     if (o.simUser && o.simPassword && username === o.simUser) {
-      if (!sameSecret(pw, o.simPassword) || !client.id.startsWith('rimehold-')) throw authError(4, 'bad-credentials');
+      if (!sameSecret(pw, o.simPassword) || client.id !== (o.simClientId ?? 'rimehold-sim')) throw authError(4, 'bad-credentials');
       return { kind: 'sim' };
     }
-    if (!username) throw authError(4, 'bad-credentials');
+    // Device sign-in: everything that can be refused without the database is refused first.
+    const address = client.conn instanceof PacketGate ? client.conn.remoteAddress : '';
+    if (this.throttle.locked(address) && !(username && this.throttle.isTrusted(username))) throw authError(5, 'address-locked');
+    const fail = (code: 4 | 5, reason: string): AuthenticateError => {
+      this.throttle.fail(address);
+      return authError(code, reason);
+    };
+    if (!username || !SERIAL_FORMAT.test(username)) throw fail(4, 'bad-username');
     // A controller's client id is fixed so it can never take over another client's session.
-    if (client.id !== `ctl-${username}`) throw authError(5, 'client-id');
+    if (client.id !== `ctl-${username}`) throw fail(5, 'client-id');
+    if (this.throttle.knownUnknown(username)) throw fail(4, 'unknown-serial');
     const ctl = await o.models.Controller.findOne({ where: { serial: username } });
-    if (!ctl || !verifyDeviceSecret(pw, ctl.secretHash)) throw authError(4, 'bad-credentials');
+    // The column compares case-insensitively: the serial must match byte for byte.
+    if (!ctl || ctl.serial !== username) {
+      this.throttle.rememberUnknown(username);
+      throw fail(4, 'unknown-serial');
+    }
+    if (!verifyDeviceSecret(pw, ctl.secretHash)) throw fail(4, 'bad-credentials');
     if (ctl.disabled) throw authError(5, 'disabled');
+    this.throttle.trust(ctl.serial);
     // aedes keeps the CONNECT packet's will in _will until the session is set up.
     const will = (client as unknown as { _will?: { topic?: string } })._will;
-    if (will?.topic && will.topic !== `${TOPIC_PREFIX}/${username}/status`) throw authError(5, 'will-acl');
-    return { kind: 'controller', serial: username };
+    if (will?.topic && will.topic !== `${TOPIC_PREFIX}/${ctl.serial}/status`) throw authError(5, 'will-acl');
+    return { kind: 'controller', serial: ctl.serial };
   }
 
   /** Why a publish is refused, or null when allowed. */
-  private publishRefusal(client: Client, topic: string): string | null {
+  private publishRefusal(client: Client, packet: Pick<PublishPacket, 'topic' | 'qos' | 'retain' | 'payload'>): string | null {
+    const topic = packet.topic;
     const p = this.principals.get(client);
     if (!p) return 'unauthenticated';
     if (topic.startsWith('$SYS')) return 'publish-acl';
@@ -210,7 +308,13 @@ export class EmbeddedBroker {
     if (p.kind === 'sim') return 'publish-acl';
     const t = parseControllerTopic(topic);
     if (!t || t.serial !== p.serial || !CONTROLLER_PUBLISH.has(t.kind)) return 'publish-acl';
-    if (t.kind === 'telemetry' && this.ingestQueueDepth >= this.o.ingestQueueLimit) return 'queue-full';
+    if (t.kind === 'telemetry') {
+      // The protocol says QoS 1: a QoS 0 message is never acknowledged by the ingest, so it would
+      // count towards the queue limit for good. Retained telemetry would stay in memory and the journal.
+      if (packet.qos !== 1) return 'telemetry-qos';
+      if (packet.retain) return 'telemetry-retain';
+      if (this.ingestQueueDepth >= this.o.ingestQueueLimit) return 'queue-full';
+    }
     return null;
   }
 
@@ -233,17 +337,21 @@ export class EmbeddedBroker {
     ingest.close();
   }
 
-  /** Drops a controller's connection (disabled or secret rotated). */
-  kick(serial: string): void {
-    const clients = (this.aedes as unknown as { clients?: Record<string, Client> } | null)?.clients;
-    const c = clients?.[`ctl-${serial}`];
-    if (c) c.close();
+  /** Drops every connection signed in as this controller (disabled or secret rotated). */
+  dropController(serial: string): void {
+    const clients = (this.aedes as unknown as { clients?: Record<string, Client> } | null)?.clients ?? {};
+    for (const c of Object.values(clients)) {
+      const p = this.principals.get(c);
+      if (p?.kind === 'controller' && p.serial === serial) c.close();
+    }
   }
 
   /** Stops the listener and the broker and closes the store. */
   async stop(): Promise<void> {
     this.o.bus.off('controllerRevoked', this.onRevoked);
     if (this.watchdog) clearInterval(this.watchdog);
+    for (const t of this.pending.values()) clearTimeout(t);
+    this.pending.clear();
     const server = this.server;
     const aedes = this.aedes;
     this.server = null;

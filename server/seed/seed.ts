@@ -72,6 +72,10 @@ export async function seedDemo(sequelize: Sequelize, models: Models, fleetFile: 
           { transaction },
         );
       }
+      // The demo technician is on call around the clock, so demo alarms mail the dev mailbox.
+      const tech = await models.User.findOne({ where: { email: 'tech@kettleridge.example.com' }, transaction });
+      const week = [{ userId: tech?.id ?? 0, weekday: 1, start: '00:00', durationMin: 7 * 24 * 60 }];
+      if (tech) await models.OncallRotation.create({ name: 'Demo on-call', timeZone: 'America/Chicago', shifts: JSON.stringify(week) }, { transaction });
     });
   }
   let controllers = 0;

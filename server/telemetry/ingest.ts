@@ -36,7 +36,7 @@ export interface IngestOptions {
 }
 
 type Item =
-  | { kind: 'reading'; messageId: number | undefined; gen: number; reading: ConvertedReading; controllerId: number; customerId: number }
+  | { kind: 'reading'; messageId: number | undefined; gen: number; reading: ConvertedReading; controllerId: number; customerId: number; serial: string }
   | { kind: 'status'; messageId: number | undefined; gen: number; serial: string; online: boolean }
   | { kind: 'ack'; messageId: number | undefined; gen: number; serial: string; ack: ConfigAckPayload }
   | { kind: 'none'; messageId: number | undefined; gen: number }
@@ -72,6 +72,8 @@ export class Ingest {
   private paused = false;
   private stopped = false;
   private lastSeen = new Map<number, number>();
+  /** Controllers known online since their last status or reading (drives the online flag from readings). */
+  private reporting = new Set<number>();
   private touchTimer: NodeJS.Timeout | null = null;
   private lastRejectLog = new Map<string, number>();
   readonly counts = { accepted: 0, duplicates: 0, rejected: 0, outages: 0 };
@@ -204,7 +206,7 @@ export class Ingest {
         } else if (box.disabled) {
           this.reject(serial, 'disabled', serial);
           Object.assign(slot, { kind: 'none' });
-        } else Object.assign(slot, { kind: 'reading', reading: convertReading(data, box), controllerId: box.controllerId, customerId: box.customerId });
+        } else Object.assign(slot, { kind: 'reading', reading: convertReading(data, box), controllerId: box.controllerId, customerId: box.customerId, serial });
       },
       (err: unknown) => {
         // The database is failing: leave the message unacknowledged; the outage path reconnects.
@@ -264,6 +266,11 @@ export class Ingest {
           const item = byId.get(r);
           if (!item) continue;
           this.lastSeen.set(item.controllerId, Date.parse(r.ts));
+          if (!this.reporting.has(item.controllerId)) {
+            // A controller whose readings arrive is online, whatever status message came (or was lost) before.
+            this.reporting.add(item.controllerId);
+            this.o.bus.emit('controller', { boxId: r.boxId, customerId: item.customerId, serial: item.serial, online: true, at: new Date().toISOString() });
+          }
           this.o.bus.emit('reading', { boxId: r.boxId, customerId: item.customerId, reading: toDto(r) });
         }
       } catch (err) {
@@ -300,6 +307,8 @@ export class Ingest {
     const box = await this.o.boxes.get(serial);
     if (!box) return this.reject(serial, 'unknown-serial', serial);
     const at = new Date();
+    if (online) this.reporting.add(box.controllerId);
+    else this.reporting.delete(box.controllerId);
     await this.o.models.Controller.update({ online, lastSeenAt: at }, { where: { id: box.controllerId } });
     this.o.bus.emit('controller', { boxId: box.boxId, customerId: box.customerId, serial, online, at: at.toISOString() });
   }

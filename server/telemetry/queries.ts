@@ -3,12 +3,15 @@ import { QueryTypes, type Sequelize } from 'sequelize';
 import type { FleetBoxStatus, ReadingDto, ReadingPoint, ReadingsResponse, Resolution } from '../../shared/schemas/live';
 import type { SessionUser } from '../../shared/schemas/auth';
 import { sqlTs } from '../db/sequelize';
+import { problems } from '../http/problem';
+import { scopeSql } from '../auth/scope';
 
 const HOUR = 3_600_000;
 
 /**
  * The resolution for a span: up to 6 h raw, up to 2 days 1-minute buckets, up to 31 days
- * 15-minute buckets, beyond that hourly. A week's chart therefore reads 672 rollup rows, never raw.
+ * 15-minute buckets, beyond that hourly. A week's chart therefore reads 672 rollup rows, never raw;
+ * every choice stays within MAX_READING_POINTS for spans up to the 400 days ReadingsQuery allows.
  */
 export function resolutionFor(spanMs: number): Exclude<Resolution, 'auto'> {
   if (spanMs <= 6 * HOUR) return 'raw';
@@ -17,21 +20,61 @@ export function resolutionFor(spanMs: number): Exclude<Resolution, 'auto'> {
   return '1h';
 }
 
+/** Points per readings answer, at most (400 days of hourly buckets is 9,600). */
+export const MAX_READING_POINTS = 10_000;
+/** Longest span answered with raw readings (ms); beyond it ask for buckets. */
+export const RAW_MAX_SPAN_MS = 24 * HOUR;
+
 const TABLE = { '1m': 'readings_1m', '15m': 'readings_15m', '1h': 'readings_1h' } as const;
 const BUCKET_MS = { '1m': 60_000, '15m': 900_000, '1h': HOUR } as const;
+const FINEST_FIRST = ['raw', '1m', '15m', '1h'] as const;
+
+/** True when a resolution answers the span within the caps (raw by RAW_MAX_SPAN_MS, buckets by MAX_READING_POINTS). */
+function fits(resolution: Exclude<Resolution, 'auto'>, fromMs: number, toMs: number): boolean {
+  if (resolution === 'raw') return toMs - fromMs <= RAW_MAX_SPAN_MS;
+  const bucket = BUCKET_MS[resolution];
+  return Math.ceil((toMs - Math.floor(fromMs / bucket) * bucket) / bucket) <= MAX_READING_POINTS;
+}
+
+/**
+ * The resolution to answer with: `auto` picks by span; an explicit one that would exceed the caps
+ * is refused with a 422 problem naming the finest resolution that fits.
+ */
+export function chooseResolution(requested: Resolution, from: Date, to: Date): Exclude<Resolution, 'auto'> {
+  const fromMs = from.getTime();
+  const toMs = to.getTime();
+  const resolution = requested === 'auto' ? resolutionFor(toMs - fromMs) : requested;
+  if (fits(resolution, fromMs, toMs)) return resolution;
+  const finest = FINEST_FIRST.find((r) => fits(r, fromMs, toMs));
+  const spanH = Math.round(((toMs - fromMs) / HOUR) * 10) / 10;
+  const limit = resolution === 'raw' ? `raw readings cover at most ${RAW_MAX_SPAN_MS / HOUR} h` : `at most ${MAX_READING_POINTS} points per answer`;
+  throw problems.unprocessable(
+    'too-many-points',
+    'Resolution too fine for this span',
+    `${resolution} over ${spanH} h is too much (${limit}). ${finest ? `Ask for resolution=${finest} (or auto)` : 'Ask for a shorter span'}.`,
+    { resolution: [finest ? `use ${finest} or coarser for this span` : 'shorten the span'] },
+  );
+}
 
 const iso = (s: string) => `${s.replace(' ', 'T').slice(0, 23)}${s.length > 19 ? '' : '.000'}Z`;
 
-/** Chart points of a box between from and to. */
+/** Chart points of a box between from and to, at most MAX_READING_POINTS of them (422 problem beyond). */
 export async function readingsBetween(sequelize: Sequelize, boxId: number, from: Date, to: Date, requested: Resolution): Promise<ReadingsResponse> {
-  const resolution = requested === 'auto' ? resolutionFor(to.getTime() - from.getTime()) : requested;
+  const resolution = chooseResolution(requested, from, to);
   let points: ReadingPoint[];
   if (resolution === 'raw') {
     const rows = await sequelize.query<Record<string, number | string | null>>(
       `SELECT DATE_FORMAT(ts, '%Y-%m-%d %H:%i:%s.%f') AS ts, box_air_c, superheat_k, valve_percent, suction_kpa_g, compressor_on, defrost_on, door_open
-       FROM readings WHERE box_id = ? AND ts >= ? AND ts < ? ORDER BY ts LIMIT 20000`,
-      { replacements: [boxId, sqlTs(from.getTime()), sqlTs(to.getTime())], type: QueryTypes.SELECT },
+       FROM readings WHERE box_id = ? AND ts >= ? AND ts < ? ORDER BY ts LIMIT ?`,
+      { replacements: [boxId, sqlTs(from.getTime()), sqlTs(to.getTime()), MAX_READING_POINTS + 1], type: QueryTypes.SELECT },
     );
+    // A controller reporting faster than every ~9 s can exceed the cap within RAW_MAX_SPAN_MS.
+    if (rows.length > MAX_READING_POINTS) {
+      if (requested === 'auto') return readingsBetween(sequelize, boxId, from, to, '1m');
+      throw problems.unprocessable('too-many-points', 'Resolution too fine for this span', `More than ${MAX_READING_POINTS} raw readings in this span. Ask for resolution=1m (or auto), or a shorter span.`, {
+        resolution: ['use 1m or coarser for this span'],
+      });
+    }
     points = rows.map((r) => ({
       ts: iso(String(r.ts).slice(0, 23)),
       boxAirMinC: Number(r.box_air_c),
@@ -83,16 +126,16 @@ export async function latestReading(sequelize: Sequelize, boxId: number): Promis
 
 /** Latest state of every box the user may see. */
 export async function fleetStatus(sequelize: Sequelize, user: SessionUser): Promise<FleetBoxStatus[]> {
-  const scoped = user.role === 'manager';
+  const scope = scopeSql(user, 'b.customer_id');
   const rows = await sequelize.query<Record<string, string | number | null>>(
     `SELECT b.id AS box_id, b.name AS box_name, b.kind, b.valve_type, b.refrigerant, b.setpoint_c, b.high_limit_c, b.low_limit_c, b.superheat_target_k,
             s.id AS site_id, s.name AS site_name, c.id AS customer_id, c.name AS customer_name,
             ctl.serial, ctl.online, DATE_FORMAT(ctl.last_seen_at, '%Y-%m-%d %H:%i:%s.%f') AS last_seen, l.reading
      FROM boxes b JOIN sites s ON s.id = b.site_id JOIN customers c ON c.id = b.customer_id
      LEFT JOIN controllers ctl ON ctl.box_id = b.id LEFT JOIN box_latest l ON l.box_id = b.id
-     ${scoped ? 'WHERE b.customer_id = ?' : ''}
+     WHERE ${scope.sql}
      ORDER BY c.name, s.name, b.name`,
-    { replacements: scoped ? [user.customerId ?? 0] : [], type: QueryTypes.SELECT },
+    { replacements: scope.replacements, type: QueryTypes.SELECT },
   );
   return rows.map((r) => ({
     boxId: Number(r.box_id),

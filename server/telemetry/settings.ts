@@ -1,13 +1,14 @@
 /**
  * Box settings sent to the controller: validated, published as config/set, tracked as pending
  * until the controller acknowledges (or the change times out), audited. The controller's ack
- * carries the values it actually applied; those become the box's settings.
+ * carries the values it actually applied; those of the request, within the box's limits, become
+ * the box's settings, and anything else it reports is refused and audited.
  */
 import { randomUUID } from 'node:crypto';
 import type { Request } from 'express';
 import { Op } from 'sequelize';
 import { COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K, formatTemperatureDelta } from '../../shared/field';
-import type { BoxSettingsBody, SettingsChangeDto } from '../../shared/schemas/settings';
+import { RequestedSettings, screenAppliedSettings, type BoxSettingsBody, type SettingsChangeDto } from '../../shared/schemas/settings';
 import { topics, type ConfigAckPayload, type ConfigSetPayload } from '../../shared/schemas/telemetry';
 import type { AppContext } from '../context';
 import type { Box, SettingsChange } from '../models';
@@ -89,7 +90,11 @@ export class SettingsService {
     return dto;
   }
 
-  /** Applies a controller's acknowledgement to its pending change and to the box. */
+  /**
+   * Applies a controller's acknowledgement to its pending change and to the box: only the fields
+   * the change asked for, within the box's limits (screenAppliedSettings); anything else the
+   * controller reports is refused, recorded on the change and audited.
+   */
   async onAck(serial: string, ack: ConfigAckPayload): Promise<void> {
     const { models } = this.ctx;
     const ctl = await models.Controller.findOne({ where: { serial } });
@@ -98,9 +103,23 @@ export class SettingsService {
     if (!change || change.state !== 'pending') return;
     const box = await models.Box.findByPk(ctl.boxId);
     if (!box) return;
-    await change.update({ state: ack.ok ? 'applied' : 'rejected', applied: JSON.stringify(ack.applied ?? {}), resolvedAt: new Date(), error: ack.error ?? null });
-    if (ack.ok) {
-      const a = ack.applied ?? {};
+    // The stored request is our own JSON, but it is parsed like any input: a row that does not
+    // parse asked for nothing, so nothing is accepted from the ack.
+    const requested = RequestedSettings.safeParse(JSON.parse(change.requested));
+    const reported = ack.applied ?? {};
+    const screen = ack.ok
+      ? screenAppliedSettings(requested.success ? requested.data : {}, reported, { lowLimitC: box.lowLimitC, highLimitC: box.highLimitC, valveType: box.valveType, overridden: change.overrideReason !== null })
+      : { accepted: {}, refused: {} };
+    const refusedFields = Object.keys(screen.refused);
+    const a = screen.accepted;
+    const anyAccepted = Object.keys(a).length > 0;
+    const applied = ack.ok && (anyAccepted || refusedFields.length === 0);
+    const refusal = refusedFields.length > 0 ? `Refused from the controller's report: ${refusedFields.map((k) => `${k} (${screen.refused[k]})`).join('; ')}`.slice(0, 200) : null;
+    if (refusedFields.length > 0) {
+      this.ctx.logger.warn({ serial, changeId: ack.id, refused: refusedFields }, 'config/ack reported values outside the request or the box limits; refused');
+      await audit(models, null, { action: 'box.settings.ack-refused', entityType: 'box', entityId: box.id, customerId: box.customerId, detail: { changeId: ack.id, serial, reported, refused: screen.refused } });
+    }
+    if (applied && anyAccepted) {
       await box.update({
         ...(a.superheatTargetK !== undefined ? { superheatTargetK: a.superheatTargetK } : {}),
         ...(a.setpointC !== undefined ? { setpointC: a.setpointC } : {}),
@@ -110,7 +129,9 @@ export class SettingsService {
       });
       this.ctx.bus.emit('boxChanged', { boxId: box.id });
     }
-    await audit(models, null, { action: ack.ok ? 'box.settings.applied' : 'box.settings.rejected', entityType: 'box', entityId: box.id, customerId: box.customerId, detail: { changeId: ack.id, applied: ack.applied, error: ack.error ?? null, serial } });
+    // Resolved after the box is updated: whoever sees the change applied sees the box's new values.
+    await change.update({ state: applied ? 'applied' : 'rejected', applied: JSON.stringify(ack.ok ? a : reported), resolvedAt: new Date(), error: ack.error ?? refusal });
+    await audit(models, null, { action: applied ? 'box.settings.applied' : 'box.settings.rejected', entityType: 'box', entityId: box.id, customerId: box.customerId, detail: { changeId: ack.id, applied: ack.ok ? a : {}, error: ack.error ?? refusal, serial } });
     this.ctx.bus.emit('settings', { boxId: box.id, customerId: box.customerId, change: toChangeDto(change) });
   }
 

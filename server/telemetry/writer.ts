@@ -1,7 +1,9 @@
 /**
  * The ingest's database writer: one transaction per batch stores the new raw readings (a
- * re-delivered one is recognised by its (box, ts) key and skipped), adds them to the 1 min,
- * 15 min and 1 h rollups and moves each box's latest reading forward. It talks to MariaDB through
+ * re-delivered one is recognised by its (box, ts) key, ts to the millisecond, and skipped), adds
+ * only the rows that were actually inserted to the 1 min, 15 min and 1 h rollups and moves each
+ * box's latest reading forward. A batch written again (a retry after a commit whose answer was
+ * lost) therefore inserts nothing and adds nothing. It talks to MariaDB through
  * the mariadb driver's batch() (the ORM would cost ~3x here), with timestamps as UTC strings.
  */
 import mariadb from 'mariadb';
@@ -56,6 +58,29 @@ const LATEST_SQL =
 /** Doubles are sent as strings so the driver keeps one parameter type per column (STACK-NOTES §7). */
 const d = (x: number | null): string | null => (x === null ? null : String(x));
 const b = (x: boolean): number => (x ? 1 : 0);
+/** The (box, instant) key of a reading, the instant as stored (UTC, milliseconds). */
+const keyOf = (boxId: number, tsMs: number): string => `${boxId}|${sqlTs(tsMs)}`;
+
+function rawRow(r: ConvertedReading, received: string): Array<string | number | null> {
+  return [
+    r.boxId, sqlTs(Date.parse(r.ts)), r.seq, received, r.refrigerant, d(r.boxAirC), d(r.suctionKPaG), d(r.suctionLineC), d(r.saturatedSuctionC), d(r.superheatK),
+    d(r.coilInletC), d(r.dischargeAirC), d(r.liquidKPaG), d(r.liquidLineC), d(r.subcoolingK), r.valveSteps, d(r.valvePercent), b(r.compressorOn), b(r.fanOn), b(r.defrostOn), b(r.doorOpen),
+  ];
+}
+
+/** Keys of the given readings already present in `readings`; `lock` takes shared next-key locks so no other writer can insert them before this transaction ends. */
+async function presentKeys(conn: mariadb.PoolConnection, rs: ConvertedReading[], lock: boolean): Promise<Set<string>> {
+  if (rs.length === 0) return new Set();
+  const placeholders = rs.map(() => '(?,?)').join(',');
+  const keyParams = rs.flatMap((r) => [r.boxId, sqlTs(Date.parse(r.ts))]);
+  const rows: Array<{ box_id: number; ts: string }> = await conn.query(`SELECT box_id, ts FROM readings WHERE (box_id, ts) IN (${placeholders})${lock ? ' LOCK IN SHARE MODE' : ''}`, keyParams);
+  return new Set(rows.map((e) => `${e.box_id}|${e.ts.slice(0, 23)}`));
+}
+
+const prevOf = (x: ConvertedReading): PrevState => ({ tsMs: Date.parse(x.ts), compressorOn: x.compressorOn, defrostOn: x.defrostOn, doorOpen: x.doorOpen });
+
+/** Rows an INSERT reported as inserted (a duplicate under INSERT IGNORE counts 0). */
+const affected = (res: unknown): number => Number((res as { affectedRows?: number } | null)?.affectedRows ?? 0);
 
 export interface FlushResult {
   /** Readings that were new and are now stored. */
@@ -106,12 +131,19 @@ export class ReadingWriter {
 
   private async loadPrev(conn: mariadb.PoolConnection): Promise<void> {
     if (this.prevLoaded) return;
+    this.prev = new Map();
     const rows: Array<{ box_id: number; reading: string }> = await conn.query('SELECT box_id, reading FROM box_latest');
     for (const r of rows) {
-      const x = JSON.parse(r.reading) as ConvertedReading;
-      this.prev.set(r.box_id, { tsMs: Date.parse(x.ts), compressorOn: x.compressorOn, defrostOn: x.defrostOn, doorOpen: x.doorOpen });
+      this.prev.set(r.box_id, prevOf(JSON.parse(r.reading) as ConvertedReading));
     }
     this.prevLoaded = true;
+  }
+
+  /** Re-reads the latest stored reading of the given boxes (a locking read: the newest committed one). */
+  private async refreshPrev(conn: mariadb.PoolConnection, boxIds: number[]): Promise<void> {
+    if (boxIds.length === 0) return;
+    const rows: Array<{ box_id: number; reading: string }> = await conn.query(`SELECT box_id, reading FROM box_latest WHERE box_id IN (${boxIds.map(() => '?').join(',')}) LOCK IN SHARE MODE`, boxIds);
+    for (const r of rows) this.prev.set(r.box_id, prevOf(JSON.parse(r.reading) as ConvertedReading));
   }
 
   /** Stores a batch in one transaction; throws on failure (nothing of the batch is then committed). */
@@ -120,11 +152,12 @@ export class ReadingWriter {
     const conn = await this.pool.getConnection();
     try {
       await this.loadPrev(conn);
-      // Unique within the batch first (the broker may deliver a message twice in one window).
+      // Unique within the batch first (the broker may deliver a message twice in one window), keyed
+      // on the instant rather than its spelling: `…00.5Z` and `…00.500Z` are one reading.
       const seen = new Set<string>();
       const unique: ConvertedReading[] = [];
       for (const r of batch) {
-        const k = `${r.boxId}|${r.ts}`;
+        const k = keyOf(r.boxId, Date.parse(r.ts));
         if (!seen.has(k)) {
           seen.add(k);
           unique.push(r);
@@ -132,29 +165,39 @@ export class ReadingWriter {
       }
       await conn.beginTransaction();
       // Readings of a box arrive in time order, so one newer than the box's latest stored reading is
-      // new for certain. Only the others (re-deliveries after a crash or reconnect) are looked up.
+      // almost certainly new. Only the others (re-deliveries after a crash or reconnect) are looked up.
       const doubtful = unique.filter((r) => {
         const p = this.prev.get(r.boxId);
         return p !== undefined && Date.parse(r.ts) <= p.tsMs;
       });
-      let existingKeys = new Set<string>();
-      if (doubtful.length > 0) {
-        const placeholders = doubtful.map(() => '(?,?)').join(',');
-        const keyParams = doubtful.flatMap((r) => [r.boxId, sqlTs(Date.parse(r.ts))]);
-        const existing: Array<{ box_id: number; ts: string }> = await conn.query(`SELECT box_id, ts FROM readings WHERE (box_id, ts) IN (${placeholders})`, keyParams);
-        existingKeys = new Set(existing.map((e) => `${e.box_id}|${e.ts.slice(0, 23)}`));
-      }
-      const fresh = unique.filter((r) => !existingKeys.has(`${r.boxId}|${sqlTs(Date.parse(r.ts))}`));
+      const existingKeys = await presentKeys(conn, doubtful, false);
+      let fresh = unique.filter((r) => !existingKeys.has(keyOf(r.boxId, Date.parse(r.ts))));
       fresh.sort((a, c) => a.boxId - c.boxId || Date.parse(a.ts) - Date.parse(c.ts));
       if (fresh.length > 0) {
         const received = sqlTs(receivedAtMs);
-        await conn.batch(
-          RAW_SQL,
-          fresh.map((r) => [
-            r.boxId, sqlTs(Date.parse(r.ts)), r.seq, received, r.refrigerant, d(r.boxAirC), d(r.suctionKPaG), d(r.suctionLineC), d(r.saturatedSuctionC), d(r.superheatK),
-            d(r.coilInletC), d(r.dischargeAirC), d(r.liquidKPaG), d(r.liquidLineC), d(r.subcoolingK), r.valveSteps, d(r.valvePercent), b(r.compressorOn), b(r.fanOn), b(r.defrostOn), b(r.doorOpen),
-          ]),
-        );
+        await conn.query('SAVEPOINT raw_rows');
+        const inserted = affected(await conn.batch(RAW_SQL, fresh.map((r) => rawRow(r, received))));
+        if (inserted !== fresh.length) {
+          // Some readings taken for new were stored already (another writer, or a batch whose commit
+          // went through although its answer was lost). The rollups must count only rows this
+          // transaction inserts, so undo the raw insert and do it again against a locked look-up.
+          await conn.query('ROLLBACK TO SAVEPOINT raw_rows');
+          const stored = await presentKeys(conn, fresh, true);
+          const candidates = fresh.filter((r) => !stored.has(keyOf(r.boxId, Date.parse(r.ts))));
+          const again = candidates.length > 0 ? affected(await conn.batch(RAW_SQL, candidates.map((r) => rawRow(r, received)))) : 0;
+          if (again === candidates.length) fresh = candidates;
+          else {
+            // INSERT IGNORE skipped a row for another reason: what exists now of the candidates
+            // (their keys were locked as absent) is exactly what this transaction inserted.
+            const mine = await presentKeys(conn, candidates, false);
+            fresh = candidates.filter((r) => mine.has(keyOf(r.boxId, Date.parse(r.ts))));
+          }
+          // This writer's view of those boxes was behind: take their latest reading as stored, so
+          // the time-in-state of the new readings starts where the stored ones end.
+          await this.refreshPrev(conn, [...new Set(fresh.map((r) => r.boxId))]);
+        }
+      }
+      if (fresh.length > 0) {
         const nextPrev = new Map(this.prev);
         const aggs = ROLLUPS.map(() => new Map<string, Agg>());
         for (const r of fresh) {
@@ -221,17 +264,20 @@ export class ReadingWriter {
       return { stored: fresh, duplicates: batch.length - fresh.length };
     } catch (e) {
       await conn.rollback().catch(() => undefined);
+      // A failed commit may still have been applied (its answer lost): take each box's latest
+      // reading from the database again rather than trusting the in-memory copy.
+      this.prevLoaded = false;
       throw e;
     } finally {
       await conn.release().catch(() => undefined);
     }
   }
 
-  /** Records when controllers were last heard from. */
+  /** Records when controllers were last heard from; a controller whose readings arrive is online. */
   async touchControllers(lastSeen: Map<number, number>): Promise<void> {
     if (lastSeen.size === 0) return;
     await this.pool.batch(
-      'UPDATE controllers SET last_seen_at = GREATEST(COALESCE(last_seen_at, ?), ?) WHERE id = ?',
+      'UPDATE controllers SET last_seen_at = GREATEST(COALESCE(last_seen_at, ?), ?), online = 1 WHERE id = ?',
       [...lastSeen.entries()].map(([id, ms]) => [sqlTs(ms), sqlTs(ms), id]),
     );
   }

@@ -31,6 +31,17 @@ export type AlarmShelveBody = z.infer<typeof AlarmShelveBody>;
 
 export const AlarmNoteBody = z.object({ note: z.string().trim().max(500).optional() }).strict();
 
+/** The token of an e-mailed acknowledgement link (`/alarms/:id?ack=TOKEN`), sent back by the signed-in user. */
+export const AlarmAckLinkBody = z.object({ token: z.string().regex(/^[A-Za-z0-9_-]{20,128}$/, 'Not an acknowledgement link token') }).strict();
+export type AlarmAckLinkBody = z.infer<typeof AlarmAckLinkBody>;
+
+/** A box's maintenance window as the API answers it. */
+export interface MaintenanceDto {
+  boxId: number;
+  until: string;
+  note: string | null;
+}
+
 /** A technician on site puts a box in maintenance: nothing is raised until it ends. */
 export const MaintenanceBody = z.object({ minutes: z.number().int().min(15).max(12 * 60), note: z.string().trim().max(200).optional() }).strict();
 export type MaintenanceBody = z.infer<typeof MaintenanceBody>;

@@ -2,6 +2,7 @@
 import { z } from 'zod';
 import type { BoxKind, ValveType } from '../domain';
 import type { SettingsChangeDto } from './settings';
+import type { AlarmDto } from './alarms';
 
 /** One converted reading as the API and the WebSocket present it. Temperatures °C, pressures kPa(g), differences K. */
 export interface ReadingDto {
@@ -89,6 +90,7 @@ export type LiveEvent =
   | { type: 'reading'; boxId: number; reading: ReadingDto }
   | { type: 'controller'; boxId: number; serial: string; online: boolean; at: string }
   | { type: 'settings'; boxId: number; change: SettingsChangeDto }
+  | { type: 'alarm'; alarm: AlarmDto }
   | { type: 'ping'; at: string };
 
 /** Frames the browser may send: only a pong or a resync request; anything else is dropped. */

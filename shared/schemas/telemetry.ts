@@ -16,10 +16,23 @@ const tempC = z.number().finite().min(-60).max(130);
 /** Gauge pressures, kPa(g): -101 (vacuum) to 14,000 (R-744 high side). */
 const kPaG = z.number().finite().min(-101).max(14_000);
 
+/**
+ * A reading's instant, normalised to millisecond UTC ISO (`…00.5Z` and `…00.500Z` become
+ * `…00.500Z`) so that every spelling of one instant keys the same stored reading.
+ */
+export const instantUtc = z.iso.datetime({ offset: false, precision: undefined }).transform((s, ctx) => {
+  const ms = Date.parse(s);
+  if (Number.isNaN(ms)) {
+    ctx.issues.push({ code: 'custom', message: 'Not a valid instant', input: s });
+    return z.NEVER;
+  }
+  return new Date(ms).toISOString();
+});
+
 export const TelemetryPayload = z
   .object({
     seq: z.number().int().min(0).max(Number.MAX_SAFE_INTEGER),
-    ts: z.iso.datetime({ offset: false, precision: undefined }),
+    ts: instantUtc,
     suctionKPaG: kPaG,
     suctionLineC: tempC,
     boxAirC: tempC,

@@ -17,8 +17,12 @@ const msg = { message: 'A store manager must belong to one customer', path: ['cu
 export const UserCreateBody = z.object(base).refine(managerNeedsCustomer, msg);
 export type UserCreateBody = z.infer<typeof UserCreateBody>;
 
+/**
+ * Admin edits a user: only the fields sent are applied. No defaults here: a `.default()` under
+ * `.partial()` still fills an absent field, which re-enabled disabled users and reset their units.
+ */
 export const UserUpdateBody = z
-  .object({ ...base, disabled: z.boolean().default(false) })
+  .object({ email: base.email, name: base.name, role: base.role, customerId: z.number().int().positive().nullable(), unitSystem: z.enum(UNIT_SYSTEMS), disabled: z.boolean() })
   .partial()
   .refine((u) => u.role === undefined || u.role !== 'manager' || (u.customerId ?? null) !== null, msg);
 export type UserUpdateBody = z.infer<typeof UserUpdateBody>;

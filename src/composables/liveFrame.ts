@@ -1,6 +1,7 @@
 /** Guard for server → browser WebSocket frames: anything that does not match a LiveEvent is dropped. */
 import { z } from 'zod';
 import type { LiveEvent } from '@shared/schemas/live';
+import { LiveAlarmFrame } from '@/api/alarms';
 
 const num = z.number().finite();
 const numOrNull = num.nullable();
@@ -47,6 +48,7 @@ const Frame = z.discriminatedUnion('type', [
   z.object({ type: z.literal('controller'), boxId, serial: z.string(), online: z.boolean(), at: isoString }),
   z.object({ type: z.literal('settings'), boxId, change: Change }),
   z.object({ type: z.literal('ping'), at: isoString }),
+  LiveAlarmFrame,
 ]);
 
 /** Parses a raw frame (string or already-decoded value); null when it is not a valid LiveEvent. */

@@ -18,7 +18,13 @@ export interface NavGroup {
 }
 
 export const NAV: NavGroup[] = [
-  { label: null, items: [{ name: 'fleet', label: 'Fleet', icon: 'fleet', primary: true }] },
+  {
+    label: null,
+    items: [
+      { name: 'fleet', label: 'Fleet', icon: 'fleet', primary: true },
+      { name: 'alarms', label: 'Alarms', icon: 'caution', primary: true },
+    ],
+  },
   {
     label: 'Field tools',
     items: [

@@ -35,6 +35,8 @@ export const routes: RouteRecordRaw[] = [
     children: [
       { path: '', name: 'fleet', component: () => import('@/views/fleet/FleetView.vue'), meta: { title: 'Fleet' } },
       { path: 'boxes/:id(\\d+)', name: 'box', component: () => import('@/views/boxes/BoxDetailView.vue'), meta: { title: 'Box' }, props: true },
+      { path: 'alarms', name: 'alarms', component: () => import('@/views/alarms/AlarmsView.vue'), meta: { title: 'Alarms' } },
+      { path: 'alarms/:id(\\d+)', name: 'alarm', component: () => import('@/views/alarms/AlarmDetailView.vue'), meta: { title: 'Alarm' }, props: true },
       { path: 'tools/pressure-temperature', name: 'tool-pt', component: () => import('@/views/tools/PressureTemperatureView.vue'), meta: { title: 'P–T calculator' } },
       { path: 'tools/superheat', name: 'tool-superheat', component: () => import('@/views/tools/SuperheatView.vue'), meta: { title: 'Superheat & subcooling' } },
       { path: 'customers', name: 'customers', component: () => import('@/views/customers/CustomersView.vue'), meta: { title: 'Customers', roles: STAFF } },

@@ -74,10 +74,10 @@ describe('route guards', () => {
 describe('navigation by role', () => {
   const names = (role: Role, devMailbox = false) => navFor(role, { demoMode: false, devMailbox }).flatMap((g) => g.items.map((i) => i.name));
   it('shows managers the fleet and field tools only', () => {
-    expect(names('manager')).toEqual(['fleet', 'tool-pt', 'tool-superheat']);
+    expect(names('manager')).toEqual(['fleet', 'alarms', 'tool-pt', 'tool-superheat']);
   });
   it('adds customers, sites and boxes for technicians', () => {
-    expect(names('technician')).toEqual(['fleet', 'tool-pt', 'tool-superheat', 'customers', 'sites', 'boxes']);
+    expect(names('technician')).toEqual(['fleet', 'alarms', 'tool-pt', 'tool-superheat', 'customers', 'sites', 'boxes']);
   });
   it('adds users and controllers for admins, and the mailbox only when the server has it', () => {
     expect(names('admin')).toContain('users');

@@ -96,6 +96,9 @@ describe('parseLiveFrame', () => {
     expect(parseLiveFrame('{"type":"ping","at":"2026-01-05T03:00:00Z"}')).toEqual({ type: 'ping', at: '2026-01-05T03:00:00Z' });
     expect(parseLiveFrame({ type: 'controller', boxId: 9, serial: 'RH-0009', online: false, at: '2026-01-05T03:00:00Z' })?.type).toBe('controller');
     expect(parseLiveFrame({ type: 'hello', userId: 1, serverTime: '2026-01-05T03:00:00Z' })?.type).toBe('hello');
+    const alarm = { id: 4, boxId: 9, boxName: 'Walk-in 1', siteId: 2, siteName: 'Site', customerId: 3, ruleId: 'box-air-high', priority: 'high', state: 'unacknowledged', conditionActive: true, value: 7.2, message: 'Box air above the limit', raisedAt: '2026-01-05T03:00:00Z', clearedAt: null, acknowledgedAt: null, acknowledgedBy: null, shelvedUntil: null, reopenCount: 0, updatedAt: '2026-01-05T03:00:00Z' };
+    expect(parseLiveFrame({ type: 'alarm', alarm })?.type).toBe('alarm');
+    expect(parseLiveFrame({ type: 'alarm', alarm: { ...alarm, state: 'lost' } })).toBeNull();
   });
 
   it('drops malformed frames', () => {

@@ -118,7 +118,7 @@ describe('sign-in rate limit', () => {
     }
   });
 
-  it('locks an account after 10 failed sign-ins even from changing addresses', async () => {
+  it('locks an account after 10 failed sign-ins even from changing addresses, refusing even the right password', async () => {
     const { email, password, user } = await f.user('technician');
     for (let i = 0; i < 10; i++) {
       const agent = request.agent(srv.server);
@@ -130,6 +130,9 @@ describe('sign-in rate limit', () => {
     const agent = request.agent(srv.server);
     const { body } = await agent.get('/api/v1/auth/csrf');
     const res = await agent.post('/api/v1/auth/login').set('x-csrf-token', body.csrfToken).send({ email, password });
-    expect(res.status).toBe(423);
+    // Still refused with the right password, and answered like any failed sign-in (no 423 that tells the account exists).
+    expect(res.status).toBe(401);
+    expect(res.body.type).toMatch(/bad-credentials$/);
+    await agent.get('/api/v1/auth/me').expect(401);
   });
 });

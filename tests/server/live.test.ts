@@ -1,3 +1,4 @@
+import net from 'node:net';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import WebSocket from 'ws';
 import type { RunningServer } from '../../server/main';
@@ -129,6 +130,21 @@ describe('GET /api/v1/boxes/:id/readings', () => {
   });
 });
 
+describe('GET /api/v1/fleet/status tenant scope', () => {
+  it('shows a technician boxes of every customer and a manager without a customer none', async () => {
+    const one = await provisionBox(srv);
+    const two = await provisionBox(srv);
+    const tech = await f.user('technician');
+    const t = await signIn(srv, tech.email, tech.password);
+    const all = await t.agent.get('/api/v1/fleet/status').expect(200);
+    const seen = new Set(all.body.map((b: { customerId: number }) => b.customerId));
+    expect(seen.has(one.customer.id) && seen.has(two.customer.id)).toBe(true);
+    const homeless = await f.user('manager', null);
+    const h = await signIn(srv, homeless.email, homeless.password);
+    expect((await h.agent.get('/api/v1/fleet/status').expect(200)).body).toEqual([]);
+  });
+});
+
 describe('WebSocket /ws', () => {
   it('refuses an upgrade without a session', async () => {
     await expect(openSocket(null)).rejects.toThrow(/401/);
@@ -170,5 +186,38 @@ describe('WebSocket /ws', () => {
     const closed = new Promise<number>((resolve) => s.ws.once('close', (code) => resolve(code)));
     await agent.post('/api/v1/auth/logout').set('x-csrf-token', csrf).expect(204);
     expect(await closed).toBe(4001);
+  });
+
+  it('closes the socket with 4003 when an admin changes the user\'s role, and the user can open a new socket', async () => {
+    const u = await f.user('technician');
+    const { agent } = await signIn(srv, u.email, u.password);
+    const s = await openSocket(cookieOf(agent as never));
+    const closed = new Promise<number>((resolve) => s.ws.once('close', (code) => resolve(code)));
+    const admin = await f.user('admin');
+    const a = await signIn(srv, admin.email, admin.password);
+    await a.agent.patch(`/api/v1/users/${u.user.id}`).set('x-csrf-token', a.csrf).send({ role: 'admin' }).expect(200);
+    expect(await closed).toBe(4003);
+    const again = await openSocket(cookieOf(agent as never));
+    await waitFor(() => again.events.some((e) => e.type === 'hello'));
+    again.ws.close();
+  });
+
+  it('answers and closes an upgrade to any path other than /ws', async () => {
+    const { port } = new URL(srv.url);
+    const answer = await new Promise<string>((resolve, reject) => {
+      const sock = net.connect(Number(port), '127.0.0.1', () => {
+        sock.write(`GET /not-the-hub HTTP/1.1\r\nHost: 127.0.0.1:${port}\r\nUpgrade: websocket\r\nConnection: Upgrade\r\nSec-WebSocket-Key: ${Buffer.from('0123456789abcdef').toString('base64')}\r\nSec-WebSocket-Version: 13\r\n\r\n`);
+      });
+      let text = '';
+      sock.on('data', (d) => (text += d.toString('latin1')));
+      sock.once('close', () => resolve(text));
+      sock.once('error', reject);
+      // Before the fix the socket was left open and silent: fail instead of hanging.
+      setTimeout(() => {
+        sock.destroy();
+        reject(new Error(`upgrade left open; received: ${JSON.stringify(text)}`));
+      }, 3000);
+    });
+    expect(answer).toMatch(/^HTTP\/1\.1 404 /);
   });
 });

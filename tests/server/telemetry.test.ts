@@ -183,7 +183,11 @@ describe('broker sign-in and ACL', () => {
     c.end(true);
     // The will was retained: a service client subscribing later still sees 'offline'.
     const { default: mqtt } = await import('mqtt');
-    const probe = await mqtt.connectAsync(url, { clientId: 'rimehold-probe', username: srv.ctx.config.MQTT_INGEST_USER, password: srv.ctx.config.MQTT_INGEST_PASSWORD, protocolVersion: 4 });
+    // Only the ingest's account may read statuses, under its one client id: borrow its session for the probe.
+    const ingest = srv.ingest;
+    if (!ingest) throw new Error('ingest expected');
+    await ingest.kill();
+    const probe = await mqtt.connectAsync(url, { clientId: srv.ctx.config.MQTT_INGEST_CLIENT_ID, clean: false, username: srv.ctx.config.MQTT_INGEST_USER, password: srv.ctx.config.MQTT_INGEST_PASSWORD, protocolVersion: 4 });
     // Other tests' controllers have statuses too: wait for this one's.
     const mine = new Promise<{ payload: string; retain: boolean }>((resolve) =>
       probe.on('message', (t, m, pk) => {
@@ -193,6 +197,7 @@ describe('broker sign-in and ACL', () => {
     await probe.subscribeAsync(`rimehold/v1/ctl/+/status`, { qos: 1 });
     expect(await mine).toEqual({ payload: 'offline', retain: true });
     await probe.endAsync();
+    await ingest.start();
   });
 
   it('refuses a will on another controller’s topic', async () => {
