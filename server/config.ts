@@ -18,6 +18,12 @@ const bool = z
   .default('0')
   .transform((v) => v === '1' || v === 'true');
 
+/** Like `bool`, but on when unset or empty. */
+const boolOn = z
+  .enum(['0', '1', 'true', 'false', ''])
+  .default('1')
+  .transform((v) => v === '1' || v === 'true' || v === '');
+
 const EnvSchema = z.object({
   NODE_ENV: z.enum(['development', 'production', 'test']).default('development'),
   HOST: z.string().default('127.0.0.1'),
@@ -92,6 +98,12 @@ const EnvSchema = z.object({
   RETENTION_RAW_DAYS: z.coerce.number().int().min(1).default(90),
   RETENTION_ROLLUP_DAYS: z.coerce.number().int().min(1).default(3 * 365),
   DEMO_MODE: bool,
+  /**
+   * 1 (default): evaluate alarm rules on every reading in the ingest path (server/alarms/service.ts).
+   * 0: start no alarm service — for `npm run bench:ingest`, which measures the ingest with alarm
+   * evaluation on and off in one run; never turn it off in a real install (no alarm would be raised).
+   */
+  ALARMS_ENABLED: boolOn,
 });
 
 export type Config = z.infer<typeof EnvSchema> & { publicUrl: string };

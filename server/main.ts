@@ -130,8 +130,9 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
       onConfigAck: (serial, ack) => settings.onAck(serial, ack),
     });
     // Subscribed before the ingest starts, so no replayed reading passes unevaluated.
-    const alarmService = new AlarmService(ctx);
-    await alarmService.start();
+    // ALARMS_ENABLED=0 (benchmarks only) starts none.
+    const alarmService = config.ALARMS_ENABLED ? new AlarmService(ctx) : null;
+    await alarmService?.start();
     alarms = alarmService;
     await ingest.start();
     const ing = ingest;
@@ -142,7 +143,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
       stopRetention();
       settings.stop();
       await ing.stop();
-      await alarmService.stop();
+      await alarmService?.stop();
       await writer.close();
       boxes.close();
       await embedded?.stop();

@@ -4,8 +4,10 @@
  * database and user. Used by `npm start`, `npm test` and the outage tests.
  */
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
-import { existsSync, mkdirSync, readFileSync, writeFileSync, rmSync } from 'node:fs';
+import { createHash } from 'node:crypto';
+import { existsSync, mkdirSync, readFileSync, readlinkSync, rmSync, symlinkSync, writeFileSync } from 'node:fs';
 import net from 'node:net';
+import os from 'node:os';
 import path from 'node:path';
 
 export interface InstanceOptions {
@@ -121,16 +123,39 @@ export class MariaInstance {
     this.log = opts.log ?? ((l) => console.log(l));
   }
 
+  /**
+   * The directory mariadbd is given. mariadb-install-db is a shell script that splits paths on
+   * spaces, and a unix socket path is limited to about 108 bytes: a data directory with a space
+   * or a long path is reached through a short symlink in the temp directory instead.
+   */
+  get baseDir(): string {
+    const dir = path.resolve(this.opts.dataDir);
+    if (!/\s/.test(dir) && dir.length <= 80) return dir;
+    const link = path.join(os.tmpdir(), `rimehold-mariadb-${createHash('sha1').update(dir).digest('hex').slice(0, 12)}`);
+    let current: string | null = null;
+    try {
+      current = readlinkSync(link);
+    } catch {
+      current = null;
+    }
+    if (current !== dir) {
+      mkdirSync(dir, { recursive: true });
+      rmSync(link, { force: true });
+      symlinkSync(dir, link, 'dir');
+    }
+    return link;
+  }
+
   get socket(): string {
-    return path.join(this.opts.dataDir, 'mysqld.sock');
+    return path.join(this.baseDir, 'mysqld.sock');
   }
 
   private get cnf(): string {
-    return path.join(this.opts.dataDir, 'my.cnf');
+    return path.join(this.baseDir, 'my.cnf');
   }
 
   private get pidFile(): string {
-    return path.join(this.opts.dataDir, 'mysqld.pid');
+    return path.join(this.baseDir, 'mysqld.pid');
   }
 
   /** The pid of a running instance on this data directory, if any. */
@@ -144,8 +169,8 @@ export class MariaInstance {
   async start(): Promise<void> {
     const bin = ensureMariadbInstalled(this.log);
     mkdirSync(this.opts.dataDir, { recursive: true });
-    writeFileSync(this.cnf, instanceConfig(this.opts));
-    const dataDir = path.join(this.opts.dataDir, 'data');
+    writeFileSync(this.cnf, instanceConfig({ ...this.opts, dataDir: this.baseDir }));
+    const dataDir = path.join(this.baseDir, 'data');
     if (!existsSync(path.join(dataDir, 'mysql'))) {
       this.log(`initialising MariaDB data directory ${dataDir}`);
       rmSync(dataDir, { recursive: true, force: true });

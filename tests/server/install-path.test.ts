@@ -66,3 +66,19 @@ describe('ensureEnvFile in a path with a dot folder and a space', () => {
     expect(ensureEnvFile(root)).toBe(false);
   });
 });
+
+describe('the project MariaDB instance in such a path', () => {
+  it('hands mariadbd a short path without spaces that leads to the data directory', async () => {
+    const { MariaInstance } = await import('../../scripts/lib/mariadb');
+    const dataDir = path.join(root, '.data', 'mariadb');
+    const instance = new MariaInstance({ dataDir, port: 1, bufferPoolMiB: 64, redoLogMiB: 16, log: () => undefined });
+    const base = instance.baseDir;
+    expect(base).not.toMatch(/\s/);
+    // mariadb-install-db splits on spaces; a unix socket path must stay under ~108 bytes.
+    expect(instance.socket.length).toBeLessThan(100);
+    writeFileSync(path.join(base, 'probe'), 'x');
+    expect(readFileSync(path.join(dataDir, 'probe'), 'utf8')).toBe('x');
+    // A plain short path is used as it is.
+    expect(new MariaInstance({ dataDir: '/tmp/plain', port: 1, bufferPoolMiB: 64, redoLogMiB: 16 }).baseDir).toBe('/tmp/plain');
+  });
+});
