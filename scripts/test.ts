@@ -7,6 +7,7 @@
 import { spawn, spawnSync } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
 import { existsSync, mkdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import os from 'node:os';
 import path from 'node:path';
 import { MariaInstance } from './lib/mariadb';
 import { firstFreePort } from './lib/ports';
@@ -19,7 +20,9 @@ const root = projectRootFrom(import.meta.url, 1);
  * (a lock file with our pid) also covers the outage test, which stops the instance for a while.
  */
 async function claimPort(start: number): Promise<{ port: number; release: () => void }> {
-  const lockDir = path.join(root, '.data', 'locks');
+  // Machine-wide, not per checkout: two clones testing at once must not take each other's port
+  // while one of them has its instance stopped (the outage test).
+  const lockDir = path.join(os.tmpdir(), 'rimehold-test-locks');
   mkdirSync(lockDir, { recursive: true });
   const lockOf = (p: number) => path.join(lockDir, `test-db-${p}.pid`);
   const claimedByLiveRun = (p: number) => {

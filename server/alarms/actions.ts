@@ -246,3 +246,64 @@ export async function escalateDue(ctx: AppContext, nowMs: number): Promise<numbe
   for (const { id } of due) if ((await escalateAlarm(ctx, id, nowMs)) !== null) n++;
   return n;
 }
+
+/** Who started or ended a maintenance window (null: the window ran out) and their note. */
+export interface MaintenanceActor {
+  userId: number | null;
+  note: string | null;
+}
+
+/**
+ * Suppresses every open alarm of a box for maintenance (ISA-18.2 "suppressed by design"): one
+ * transition row each with who, when and note, escalation stopped, each published. Returns how many moved.
+ */
+export async function suppressBoxAlarms(ctx: AppContext, boxId: number, by: MaintenanceActor, at: Date): Promise<number> {
+  const open = await ctx.models.Alarm.findAll({ where: { boxId, state: { [Op.notIn]: ['normal', 'suppressed', 'out-of-service'] } }, attributes: ['id'] });
+  let n = 0;
+  for (const { id } of open) {
+    const a = await ctx.sequelize.transaction(async (t) => {
+      const row = await ctx.models.Alarm.findByPk(id, { lock: t.LOCK.UPDATE, transaction: t });
+      if (!row) return null;
+      const to = safeNext(row.state, 'suppress', row.conditionActive);
+      if (to === null || to === row.state) return null;
+      await transition(ctx, t, row, 'suppress', to, at, by.userId, by.note ?? 'box in maintenance');
+      await row.update({ state: to, shelvedUntil: null, nextEscalationAt: null }, { transaction: t });
+      return row;
+    });
+    if (a) {
+      n++;
+      await publishAlarm(ctx, a);
+    }
+  }
+  return n;
+}
+
+/**
+ * Ends suppression of a box's alarms when maintenance ends: each goes back to unacknowledged when
+ * its rule is active now (`activeRules`, from the engine) or to normal when not; the ones that
+ * wait for acknowledgement escalate again from the first level. Returns how many moved.
+ */
+export async function unsuppressBoxAlarms(ctx: AppContext, boxId: number, activeRules: readonly string[], by: MaintenanceActor, at: Date): Promise<number> {
+  const held = await ctx.models.Alarm.findAll({ where: { boxId, state: 'suppressed' }, attributes: ['id'] });
+  let n = 0;
+  for (const { id } of held) {
+    const a = await ctx.sequelize.transaction(async (t) => {
+      const row = await ctx.models.Alarm.findByPk(id, { lock: t.LOCK.UPDATE, transaction: t });
+      if (!row || row.state !== 'suppressed') return null;
+      const active = activeRules.includes(row.ruleId);
+      const to = safeNext(row.state, 'unsuppress', active);
+      if (to === null) return null;
+      await transition(ctx, t, row, 'unsuppress', to, at, by.userId, by.note ?? 'maintenance ended');
+      const values: Partial<Alarm> = { state: to, conditionActive: active };
+      if (!active && row.conditionActive) values.clearedAt = at;
+      if (needsAck(to)) Object.assign(values, { escalationStep: -1, nextEscalationAt: at, acknowledgedAt: null, acknowledgedBy: null });
+      await row.update(values, { transaction: t });
+      return row;
+    });
+    if (a) {
+      n++;
+      await publishAlarm(ctx, a);
+    }
+  }
+  return n;
+}

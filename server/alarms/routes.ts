@@ -96,16 +96,17 @@ export function maintenanceRoutes(ctx: AppContext): Router {
     const box = await loadScopedBox(models, user, id);
     const until = new Date(Date.now() + body.minutes * 60_000);
     await models.BoxMaintenance.upsert({ boxId: box.id, untilAt: until, note: body.note ?? null, setBy: user.id, setAt: new Date() });
-    ctx.bus.emit('boxMaintenance', { boxId: box.id, untilMs: until.getTime() });
+    ctx.bus.emit('boxMaintenance', { boxId: box.id, untilMs: until.getTime(), byUserId: user.id, note: body.note ?? null });
     await audit(models, req, { action: 'box.maintenance.start', entityType: 'box', entityId: box.id, customerId: box.customerId, detail: { minutes: body.minutes, note: body.note ?? null, until: until.toISOString() } });
     const dto: MaintenanceDto = { boxId: box.id, until: until.toISOString(), note: body.note ?? null };
     res.status(201).json(dto);
   });
 
   r.delete('/:id/maintenance', requireRole('admin', 'technician'), async (req, res) => {
-    const box = await loadScopedBox(models, currentUser(req), parseId(req));
+    const user = currentUser(req);
+    const box = await loadScopedBox(models, user, parseId(req));
     const removed = await models.BoxMaintenance.destroy({ where: { boxId: box.id } });
-    ctx.bus.emit('boxMaintenance', { boxId: box.id, untilMs: null });
+    ctx.bus.emit('boxMaintenance', { boxId: box.id, untilMs: null, byUserId: user.id, note: 'maintenance ended' });
     if (removed > 0) await audit(models, req, { action: 'box.maintenance.end', entityType: 'box', entityId: box.id, customerId: box.customerId });
     res.status(204).end();
   });

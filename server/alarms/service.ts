@@ -11,7 +11,8 @@ import type { ReadingDto } from '../../shared/schemas/live';
 import type { AppContext } from '../context';
 import type { Box } from '../models';
 import type { EventBusMap } from '../events/bus';
-import { applyCondition, escalateAlarm, escalateDue, expireShelving, publishAlarm, type AlarmBox } from './actions';
+import { Op } from 'sequelize';
+import { applyCondition, escalateAlarm, escalateDue, expireShelving, publishAlarm, suppressBoxAlarms, unsuppressBoxAlarms, type AlarmBox, type MaintenanceActor } from './actions';
 
 /** Nominal controller reporting interval (s) when the box does not say (the simulator's default, docs/device-protocol.md). */
 export const DEFAULT_REPORT_INTERVAL_S = 10;
@@ -90,7 +91,7 @@ export class AlarmService {
     on('reading', (e) => this.onReading(e.boxId, e.reading));
     on('controller', (e) => this.run(e.boxId, (s) => s.engine.onControllerStatus(e.online, Date.parse(e.at))));
     on('boxChanged', (e) => this.enqueue(e.boxId, () => this.reload(e.boxId)));
-    on('boxMaintenance', (e) => this.run(e.boxId, (s) => (s.engine.setMaintenance(e.untilMs), [])));
+    on('boxMaintenance', (e) => this.onMaintenance(e.boxId, e.untilMs, { userId: e.byUserId ?? null, note: e.note ?? null }));
     const tick = setInterval(() => void this.tick(Date.now()), this.opts.tickMs ?? 30_000);
     const snap = setInterval(() => void this.saveSnapshots().catch((err) => this.ctx.logger.error({ err }, 'alarm snapshot save failed')), this.opts.snapshotMs ?? 60_000);
     tick.unref();
@@ -134,6 +135,7 @@ export class AlarmService {
       try {
         for (const id of this.boxes.keys()) this.run(id, (s) => s.engine.onTick(nowMs));
         await Promise.all([...this.chains.values()]);
+        await this.expireMaintenance(nowMs);
         await expireShelving(this.ctx, nowMs);
         await escalateDue(this.ctx, nowMs);
       } catch (err) {
@@ -148,6 +150,34 @@ export class AlarmService {
   /** Sends the escalation steps due at `nowMs` (the tick does this; tests call it with a later instant). */
   escalateDue(nowMs: number): Promise<number> {
     return escalateDue(this.ctx, nowMs);
+  }
+
+  /**
+   * A maintenance window set (untilMs, epoch ms) or ended (null): the engine stops or resumes
+   * raising, the box's open alarms are suppressed or unsuppressed (against the engine's active
+   * rules), then the hub learns the new window. Runs in the box's chain, after pending condition events.
+   */
+  private onMaintenance(boxId: number, untilMs: number | null, by: MaintenanceActor): void {
+    this.enqueue(boxId, async () => {
+      const s = this.boxes.get(boxId) ?? (await this.load(boxId));
+      if (!s) return;
+      s.engine.setMaintenance(untilMs);
+      const at = new Date();
+      if (untilMs !== null) await suppressBoxAlarms(this.ctx, boxId, by, at);
+      else await unsuppressBoxAlarms(this.ctx, boxId, s.engine.active(), by, at);
+      await this.saveSnapshot(boxId, s);
+      this.ctx.bus.emit('maintenanceChanged', { boxId, customerId: s.box.customerId, until: untilMs === null ? null : new Date(untilMs).toISOString() });
+    });
+  }
+
+  /** Ends the maintenance windows that ran out by `nowMs` (the DB row is the authority; a newer window set meanwhile is kept). */
+  private async expireMaintenance(nowMs: number): Promise<void> {
+    const due = await this.ctx.models.BoxMaintenance.findAll({ where: { untilAt: { [Op.lte]: new Date(nowMs) } }, attributes: ['boxId', 'untilAt'] });
+    for (const m of due) {
+      const removed = await this.ctx.models.BoxMaintenance.destroy({ where: { boxId: m.boxId, untilAt: { [Op.lte]: new Date(nowMs) } } });
+      if (removed > 0) this.onMaintenance(m.boxId, null, { userId: null, note: 'maintenance window ran out' });
+    }
+    await Promise.all([...this.chains.values()]);
   }
 
   private onReading(boxId: number, reading: ReadingDto): void {

@@ -16,10 +16,10 @@ import { problems } from '../http/problem';
 import { contains } from '../http/search';
 import { audit } from '../audit/service';
 import { toControllerSummary } from '../controllers/service';
-import { BOX_INCLUDE, createBox, deleteBox, loadScopedBox, updateBox, type BoxWithRelations } from './service';
+import { BOX_INCLUDE, createBox, deleteBox, loadScopedBox, maintenanceUntilByBox, updateBox, type BoxWithRelations } from './service';
 
-/** Presents a box with its site and customer names and its controller (°C, K, minutes, hours). */
-export function toBoxDto(b: BoxWithRelations): BoxDto {
+/** Presents a box with its site and customer names, its controller and its maintenance end (°C, K, minutes, hours). */
+export function toBoxDto(b: BoxWithRelations, maintenanceUntil: Date | null): BoxDto {
   return {
     id: b.id,
     siteId: b.siteId,
@@ -46,6 +46,7 @@ export function toBoxDto(b: BoxWithRelations): BoxDto {
     dripMin: b.dripMin,
     fanDelayMin: b.fanDelayMin,
     controller: b.controller ? toControllerSummary(b.controller) : null,
+    maintenanceUntil: maintenanceUntil ? maintenanceUntil.toISOString() : null,
     createdAt: b.createdAt.toISOString(),
     updatedAt: b.updatedAt.toISOString(),
   };
@@ -64,7 +65,7 @@ export function boxRoutes(ctx: AppContext): Router {
   async function reload(id: number): Promise<BoxDto> {
     const b = await models.Box.findByPk(id, { include: BOX_INCLUDE });
     if (!b) throw problems.notFound('box');
-    return toBoxDto(b);
+    return toBoxDto(b, (await maintenanceUntilByBox(models, [b.id])).get(b.id) ?? null);
   }
 
   r.get('/', requireAuth, async (req, res) => {
@@ -83,11 +84,13 @@ export function boxRoutes(ctx: AppContext): Router {
       offset: p.offset,
       distinct: true,
     });
-    res.json(pageResult(rows.map((b: BoxWithRelations) => toBoxDto(b)), count, p));
+    const until = await maintenanceUntilByBox(models, rows.map((b) => b.id));
+    res.json(pageResult(rows.map((b: BoxWithRelations) => toBoxDto(b, until.get(b.id) ?? null)), count, p));
   });
 
   r.get('/:id', requireAuth, async (req, res) => {
-    res.json(toBoxDto(await loadScopedBox(models, currentUser(req), parseId(req))));
+    const b = await loadScopedBox(models, currentUser(req), parseId(req));
+    res.json(toBoxDto(b, (await maintenanceUntilByBox(models, [b.id])).get(b.id) ?? null));
   });
 
   r.post('/', requireRole('admin'), async (req, res) => {

@@ -49,6 +49,13 @@ export async function loadScopedBox(models: Models, user: SessionUser, id: numbe
   return b;
 }
 
+/** The end (UTC Date) of each given box's maintenance window still running now; boxes not in maintenance are absent. */
+export async function maintenanceUntilByBox(models: Models, boxIds: number[]): Promise<Map<number, Date>> {
+  if (boxIds.length === 0) return new Map();
+  const rows = await models.BoxMaintenance.findAll({ where: { boxId: { [Op.in]: boxIds }, untilAt: { [Op.gt]: new Date() } }, attributes: ['boxId', 'untilAt'] });
+  return new Map(rows.map((m) => [m.boxId, m.untilAt]));
+}
+
 async function siteForBox(models: Models, siteId: number): Promise<Site> {
   const site = await models.Site.findByPk(siteId);
   if (!site) throw problems.unprocessable('unknown-site', 'Unknown site', `Site ${siteId} does not exist.`, { siteId: ['Unknown site'] });

@@ -22,7 +22,9 @@ export interface EventBusMap {
   /** An alarm changed (raised, cleared, acknowledged, shelved…): the hub forwards it to the tenant. */
   alarm: [{ boxId: number; customerId: number; alarm: AlarmDto }];
   /** A box's maintenance window was set (until, epoch ms) or ended (null): the alarm service stops raising for it. */
-  boxMaintenance: [{ boxId: number; untilMs: number | null }];
+  boxMaintenance: [{ boxId: number; untilMs: number | null; byUserId?: number | null; note?: string | null }];
+  /** A box's maintenance window as stored after the alarm service applied it (until ISO, or null when it ended): the hub forwards it. */
+  maintenanceChanged: [{ boxId: number; customerId: number; until: string | null }];
 }
 
 export class EventBus extends EventEmitter<EventBusMap> {

@@ -130,9 +130,11 @@ export async function fleetStatus(sequelize: Sequelize, user: SessionUser): Prom
   const rows = await sequelize.query<Record<string, string | number | null>>(
     `SELECT b.id AS box_id, b.name AS box_name, b.kind, b.valve_type, b.refrigerant, b.setpoint_c, b.high_limit_c, b.low_limit_c, b.superheat_target_k,
             s.id AS site_id, s.name AS site_name, c.id AS customer_id, c.name AS customer_name,
-            ctl.serial, ctl.online, DATE_FORMAT(ctl.last_seen_at, '%Y-%m-%d %H:%i:%s.%f') AS last_seen, l.reading
+            ctl.serial, ctl.online, DATE_FORMAT(ctl.last_seen_at, '%Y-%m-%d %H:%i:%s.%f') AS last_seen, l.reading,
+            DATE_FORMAT(m.until_at, '%Y-%m-%d %H:%i:%s.%f') AS maintenance_until
      FROM boxes b JOIN sites s ON s.id = b.site_id JOIN customers c ON c.id = b.customer_id
      LEFT JOIN controllers ctl ON ctl.box_id = b.id LEFT JOIN box_latest l ON l.box_id = b.id
+     LEFT JOIN box_maintenance m ON m.box_id = b.id AND m.until_at > UTC_TIMESTAMP(3)
      WHERE ${scope.sql}
      ORDER BY c.name, s.name, b.name`,
     { replacements: scope.replacements, type: QueryTypes.SELECT },
@@ -155,5 +157,6 @@ export async function fleetStatus(sequelize: Sequelize, user: SessionUser): Prom
     online: Number(r.online) === 1,
     lastSeenAt: r.last_seen ? iso(String(r.last_seen).slice(0, 23)) : null,
     latest: r.reading ? (JSON.parse(String(r.reading)) as ReadingDto) : null,
+    maintenanceUntil: r.maintenance_until ? iso(String(r.maintenance_until).slice(0, 23)) : null,
   }));
 }

@@ -89,6 +89,7 @@ export class LiveHub {
     on('controller', (e) => this.send(e.customerId, { type: 'controller', boxId: e.boxId, serial: e.serial, online: e.online, at: e.at }));
     on('settings', (e) => this.send(e.customerId, { type: 'settings', boxId: e.boxId, change: e.change }));
     on('alarm', (e) => this.send(e.customerId, { type: 'alarm', alarm: e.alarm }));
+    on('maintenanceChanged', (e) => this.send(e.customerId, { type: 'maintenance', boxId: e.boxId, until: e.until }));
     on('userSessionEnded', ({ userId }) => this.closeUser(userId, LIVE_CLOSE.sessionEnded, 'session ended'));
     on('userAccessChanged', ({ userId }) => this.closeUser(userId, LIVE_CLOSE.accessChanged, 'access changed'));
     this.heartbeat = setInterval(() => this.beat(), this.limits.heartbeatMs);

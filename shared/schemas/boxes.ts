@@ -77,6 +77,8 @@ export interface BoxDto extends BoxCreateBody {
   customerId: number;
   customerName: string;
   controller: ControllerSummary | null;
+  /** End of the box's maintenance window (ISO), null when not in maintenance: its alarms are held. */
+  maintenanceUntil: string | null;
   createdAt: string;
   updatedAt: string;
 }

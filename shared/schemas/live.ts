@@ -45,6 +45,8 @@ export interface FleetBoxStatus {
   online: boolean;
   lastSeenAt: string | null;
   latest: ReadingDto | null;
+  /** End of the box's maintenance window (ISO), null when not in maintenance: its alarms are held. */
+  maintenanceUntil: string | null;
 }
 
 export const RESOLUTIONS = ['auto', 'raw', '1m', '15m', '1h'] as const;
@@ -91,6 +93,7 @@ export type LiveEvent =
   | { type: 'controller'; boxId: number; serial: string; online: boolean; at: string }
   | { type: 'settings'; boxId: number; change: SettingsChangeDto }
   | { type: 'alarm'; alarm: AlarmDto }
+  | { type: 'maintenance'; boxId: number; until: string | null }
   | { type: 'ping'; at: string };
 
 /** Frames the browser may send: only a pong or a resync request; anything else is dropped. */

@@ -48,6 +48,7 @@ const Frame = z.discriminatedUnion('type', [
   z.object({ type: z.literal('controller'), boxId, serial: z.string(), online: z.boolean(), at: isoString }),
   z.object({ type: z.literal('settings'), boxId, change: Change }),
   z.object({ type: z.literal('ping'), at: isoString }),
+  z.object({ type: z.literal('maintenance'), boxId, until: isoString.nullable() }),
   LiveAlarmFrame,
 ]);
 

@@ -102,6 +102,11 @@ export const useFleetStore = defineStore('fleet', () => {
     }));
   }
 
+  /** Records a box's maintenance window end (ISO) or its end (null). */
+  function setMaintenance(boxId: number, until: string | null) {
+    patch(boxId, (b) => (b.maintenanceUntil === until ? b : { ...b, maintenanceUntil: until }));
+  }
+
   /** Applies one live event; unknown boxes are ignored (a resync brings new boxes). */
   function applyEvent(ev: LiveEvent) {
     switch (ev.type) {
@@ -114,6 +119,9 @@ export const useFleetStore = defineStore('fleet', () => {
       case 'settings':
         applySettings(ev.change);
         break;
+      case 'maintenance':
+        setMaintenance(ev.boxId, ev.until);
+        break;
       default:
         break;
     }
@@ -125,5 +133,5 @@ export const useFleetStore = defineStore('fleet', () => {
     error.value = null;
   }
 
-  return { byId: readonly(byId), list, groups, loading, error, loadedAt, load, applyEvent, replaceAll, reset };
+  return { byId: readonly(byId), list, groups, loading, error, loadedAt, load, applyEvent, setMaintenance, replaceAll, reset };
 });

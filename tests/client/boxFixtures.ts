@@ -49,6 +49,7 @@ export function makeStatus(over: Partial<FleetBoxStatus> = {}): FleetBoxStatus {
     online: true,
     lastSeenAt: NOW_ISO,
     latest: makeReading(),
+    maintenanceUntil: null,
     ...over,
   };
 }
@@ -79,6 +80,7 @@ export function makeBox(over: Partial<BoxDto> = {}): BoxDto {
     customerId: 3,
     customerName: 'Example Bistro Group',
     controller: { id: 9, serial: 'SIM-0005', valveFullSteps: 1600, firmware: null, lastSeenAt: NOW_ISO, online: true, disabled: false },
+    maintenanceUntil: null,
     createdAt: NOW_ISO,
     updatedAt: NOW_ISO,
     ...over,

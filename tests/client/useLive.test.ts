@@ -225,6 +225,7 @@ describe('fleet store and live events', () => {
     online: false,
     lastSeenAt: null,
     latest: { ...reading, ts: '2026-01-05T02:59:00.000Z', seq: 41, boxAirC: 3 },
+    maintenanceUntil: null,
   };
 
   it('applies newer readings and controller changes, ignores older readings and unknown boxes', () => {
