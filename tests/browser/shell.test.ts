@@ -35,7 +35,7 @@ afterAll(async () => {
 });
 
 // What each role may reach, from src/lib/nav.ts and the route roles in src/router/routes.ts.
-const PRIMARY = ['nav-fleet', 'nav-tool-pt', 'nav-tool-superheat'];
+const PRIMARY = ['nav-fleet', 'nav-alarms', 'nav-tool-pt', 'nav-tool-superheat'];
 const SECONDARY: Record<Role, string[]> = {
   manager: [],
   technician: ['Customers', 'Sites', 'Boxes'],
