@@ -12,6 +12,7 @@ import type { AppContext } from '../context';
 import type { Box } from '../models';
 import type { EventBusMap } from '../events/bus';
 import { Op } from 'sequelize';
+import { isTransientError } from '../telemetry/writer';
 import { applyCondition, escalateAlarm, escalateDue, expireShelving, publishAlarm, suppressBoxAlarms, unsuppressBoxAlarms, type AlarmBox, type MaintenanceActor } from './actions';
 
 /** Nominal controller reporting interval (s) when the box does not say (the simulator's default, docs/device-protocol.md). */
@@ -261,7 +262,7 @@ export class AlarmService {
     const s = this.boxes.get(boxId);
     if (!s) return;
     for (const ev of events) {
-      const r = await applyCondition(this.ctx, s.box, ev);
+      const r = await retryTransient(() => applyCondition(this.ctx, s.box, ev));
       if (!r) continue;
       await publishAlarm(this.ctx, r.alarm);
       if (r.notify) await escalateAlarm(this.ctx, r.alarm.id, Date.now());
@@ -281,6 +282,21 @@ export class AlarmService {
       } catch (err) {
         this.ctx.logger.warn({ err, boxId }, 'engine snapshot not saved');
       }
+    }
+  }
+}
+
+/**
+ * Runs a transaction again when MariaDB answers a deadlock or lock-wait timeout (many boxes raising
+ * at once, e.g. every controller's last will when a site loses power): the alarm must not be lost.
+ */
+async function retryTransient<T>(fn: () => Promise<T>, attempts = 6): Promise<T> {
+  for (let i = 1; ; i++) {
+    try {
+      return await fn();
+    } catch (err) {
+      if (!isTransientError(err) || i >= attempts) throw err;
+      await new Promise((r) => setTimeout(r, 20 * i + Math.random() * 30));
     }
   }
 }

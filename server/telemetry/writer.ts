@@ -90,7 +90,9 @@ export interface FlushResult {
 
 /** True for deadlocks and lock-wait timeouts, which succeed when retried. */
 export function isTransientError(e: unknown): boolean {
-  const errno = (e as { errno?: number })?.errno;
+  // Sequelize wraps the driver's error in `parent`.
+  const err = e as { errno?: number; parent?: { errno?: number } } | null;
+  const errno = err?.errno ?? err?.parent?.errno;
   return errno === 1213 || errno === 1205;
 }
 
