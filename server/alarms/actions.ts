@@ -14,6 +14,7 @@ import type { Alarm } from '../models/alarms';
 import { HttpProblem, problems } from '../http/problem';
 import { scopeWhere } from '../auth/guards';
 import { tokenDigest } from '../auth/passwords';
+import { auditBy } from '../audit/service';
 import { toAlarmDto } from './present';
 import { notifyRecipients } from './notify';
 import { inQuietHours, managersOf, MANAGER_RULES, policyFor, quietHoursEndMs, recipientsFor } from './oncall';
@@ -121,14 +122,6 @@ function safeNext(state: AlarmState, action: AlarmAction, conditionActive: boole
   }
 }
 
-/** Writes an audit entry for a service call made by an actor (the audit helper wants a request). */
-async function auditAs(ctx: AppContext, actor: SessionUser, requestId: string | null, alarm: Alarm, action: string, detail: unknown, t: Transaction): Promise<void> {
-  await ctx.models.AuditEntry.create(
-    { at: new Date(), userId: actor.id, action, entityType: 'alarm', entityId: String(alarm.id), customerId: alarm.customerId, detail: JSON.stringify(detail), requestId },
-    { transaction: t },
-  );
-}
-
 export interface AlarmActionDeps {
   ctx: AppContext;
   requestId: string | null;
@@ -160,7 +153,7 @@ export async function actOnAlarm(deps: AlarmActionDeps, actor: SessionUser, id: 
     if (input.action === 'shelve') Object.assign(values, { shelvedUntil: new Date(now.getTime() + input.minutes * 60_000), nextEscalationAt: null });
     if (input.action === 'unshelve') Object.assign(values, { shelvedUntil: null, ...(needsAck(to) ? { escalationStep: -1, nextEscalationAt: now } : {}) });
     await a.update(values, { transaction: t });
-    await auditAs(ctx, actor, deps.requestId, a, `alarm.${input.action}`, { from, to, note, viaLink: token !== undefined }, t);
+    await auditBy(ctx.models, { userId: actor.id, requestId: deps.requestId }, { action: `alarm.${input.action}`, entityType: 'alarm', entityId: a.id, customerId: a.customerId, detail: { from, to, note, viaLink: token !== undefined } }, t);
     return a;
   });
   return publishAlarm(ctx, alarm);

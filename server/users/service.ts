@@ -4,7 +4,7 @@ import type { SessionUser } from '../../shared/schemas/auth';
 import type { UserCreateBody, UserDto, UserUpdateBody } from '../../shared/schemas/users';
 import type { AppContext } from '../context';
 import type { Models, User } from '../models';
-import type { AuditInput } from '../audit/service';
+import { auditBy, type AuditInput } from '../audit/service';
 import { problems } from '../http/problem';
 import { changedKeys } from '../http/patch';
 import { sendInvitation } from './invite';
@@ -38,17 +38,8 @@ export function toUserDto(u: User): UserDto {
 /** Fields whose change makes a live socket's copy of the user stale. */
 const ACCESS_FIELDS = ['role', 'customerId', 'disabled'] as const;
 
-async function auditAs(models: Models, actor: Actor, e: AuditInput): Promise<void> {
-  await models.AuditEntry.create({
-    at: new Date(),
-    userId: actor.user.id,
-    action: e.action,
-    entityType: e.entityType,
-    entityId: e.entityId === undefined || e.entityId === null ? null : String(e.entityId),
-    customerId: e.customerId ?? null,
-    detail: e.detail === undefined ? null : JSON.stringify(e.detail),
-    requestId: actor.requestId,
-  });
+function auditAs(models: Models, actor: Actor, e: AuditInput): Promise<void> {
+  return auditBy(models, { userId: actor.user.id, requestId: actor.requestId }, e);
 }
 
 async function loadUser(models: Models, id: number): Promise<User> {
