@@ -30,11 +30,11 @@ export default defineConfig({
       output: {
         // Groups (rolldown): a group also captures its modules' dependencies, so Vue, the router and
         // Pinia get their own top-priority chunk; otherwise Vue landed in 'charts' via vue-echarts and
-        // the whole ECharts bundle was preloaded on every page.
+        // the whole ECharts bundle was preloaded on every page. Naive UI has no group of its own: its
+        // components split with the routes that use them, so the first page loads only its own.
         codeSplitting: {
           groups: [
             { name: 'vue', test: /node_modules[\\/](@vue|vue|vue-router|pinia)[\\/]/, priority: 30 },
-            { name: 'ui', test: /node_modules[\\/](naive-ui|vueuc|css-render|@css-render)[\\/]/, priority: 20 },
             { name: 'charts', test: /node_modules[\\/](echarts|zrender|vue-echarts)[\\/]/, priority: 10 },
           ],
         },

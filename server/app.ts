@@ -4,6 +4,7 @@ import { existsSync } from 'node:fs';
 import path from 'node:path';
 import express, { Router, type RequestHandler } from 'express';
 import helmet from 'helmet';
+import compression from 'compression';
 import { pinoHttp } from 'pino-http';
 import { csrfSync } from 'csrf-sync';
 import { PROJECT_ROOT } from './config';
@@ -90,6 +91,9 @@ export function createApp(ctx: AppContext, settings: SettingsService, opts: Crea
     }),
   );
   app.use(requestTarget(new URL(ctx.config.publicUrl).host));
+  // gzip for the client's assets and larger API answers (the fleet status of a big fleet); the
+  // one-off CSV/PDF downloads and small answers pass through (threshold 1 KiB).
+  app.use(compression({ threshold: 1024 }));
   app.use(
     helmet({
       contentSecurityPolicy: { directives: { upgradeInsecureRequests: null, 'connect-src': ["'self'", 'ws:', 'wss:'] } },

@@ -93,11 +93,28 @@ const EnvSchema = z.object({
   /** 1: start the local fake SMTP server and the dev mailbox page (development and tests). */
   SMTP_FAKE: bool,
   MAIL_FROM: z.string().default('Rimehold <no-reply@rimehold.example.com>'),
+  /**
+   * 1: start the local fake push service (server/push/fakePushService.ts) and the push inbox page.
+   * Unset: on outside production, off in production (which refuses PUSH_FAKE=1).
+   */
+  PUSH_FAKE: z
+    .enum(['0', '1', 'true', 'false', ''])
+    .optional()
+    .transform((v) => (v === undefined || v === '' ? null : v === '1' || v === 'true')),
+  /** Port of the fake push service on 127.0.0.1 (0: any free port; its endpoints carry the port). */
+  PUSH_FAKE_PORT: z.coerce.number().int().min(0).max(65535).default(0),
+  /** The VAPID contact (RFC 8292 §2.1): a mailto: or https: URL the push services may write to. */
+  PUSH_VAPID_SUBJECT: z.string().regex(/^(mailto:|https:\/\/)\S+$/, 'PUSH_VAPID_SUBJECT must be a mailto: or https: URL').default('mailto:no-reply@rimehold.example.com'),
   LOG_LEVEL: z.enum(['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent']).default('info'),
   LOGIN_RATE_LIMIT: z.coerce.number().int().min(1).default(10),
   RETENTION_RAW_DAYS: z.coerce.number().int().min(1).default(90),
   RETENTION_ROLLUP_DAYS: z.coerce.number().int().min(1).default(3 * 365),
   DEMO_MODE: bool,
+  /**
+   * Days of past readings (with rollups and past alarms) seeded for every demo box at first start
+   * in demo mode (server/seed/history.ts); 0 skips it. Unset under NODE_ENV=test: 0.
+   */
+  DEMO_HISTORY_DAYS: z.coerce.number().int().min(0).max(90).default(14),
   /**
    * 1 (default): evaluate alarm rules on every reading in the ingest path (server/alarms/service.ts).
    * 0: start no alarm service — for `npm run bench:ingest`, which measures the ingest with alarm
@@ -106,7 +123,7 @@ const EnvSchema = z.object({
   ALARMS_ENABLED: boolOn,
 });
 
-export type Config = z.infer<typeof EnvSchema> & { publicUrl: string };
+export type Config = Omit<z.infer<typeof EnvSchema>, 'PUSH_FAKE'> & { PUSH_FAKE: boolean; publicUrl: string };
 
 /** The secrets a production install must set itself (their defaults are public, in this file). */
 export const PRODUCTION_SECRETS = ['SESSION_SECRET', 'DB_PASSWORD', 'MQTT_INGEST_PASSWORD', 'MQTT_SIM_PASSWORD'] as const;
@@ -121,6 +138,7 @@ export function productionRefusals(c: z.infer<typeof EnvSchema>): string[] {
   const out: string[] = [];
   if (c.DEMO_MODE) out.push('DEMO_MODE is on: demo people, businesses and passwords exist only in demo mode (set DEMO_MODE=0).');
   if (c.SMTP_FAKE) out.push('SMTP_FAKE is on: the local fake SMTP server keeps mail on this machine (set SMTP_FAKE=0 and the SMTP_* of your relay).');
+  if (c.PUSH_FAKE === true) out.push('PUSH_FAKE is on: the local fake push service keeps phone notifications on this machine (set PUSH_FAKE=0 or leave it unset).');
   const defaults = EnvSchema.parse({});
   for (const key of PRODUCTION_SECRETS) {
     const value = c[key];
@@ -141,5 +159,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     const refusals = productionRefusals(c);
     if (refusals.length) throw new Error(`Refusing to start in production:\n${refusals.map((r) => `  ${r}`).join('\n')}`);
   }
-  return { ...c, publicUrl: c.PUBLIC_URL ?? `http://${c.HOST === '0.0.0.0' ? '127.0.0.1' : c.HOST}:${c.PORT}` };
+  // Tests start with no demo history unless one asks for it (seeding costs seconds).
+  const historyDays = env.DEMO_HISTORY_DAYS === undefined && c.NODE_ENV === 'test' ? 0 : c.DEMO_HISTORY_DAYS;
+  return { ...c, DEMO_HISTORY_DAYS: historyDays, PUSH_FAKE: c.PUSH_FAKE ?? c.NODE_ENV !== 'production', publicUrl: c.PUBLIC_URL ?? `http://${c.HOST === '0.0.0.0' ? '127.0.0.1' : c.HOST}:${c.PORT}` };
 }

@@ -7,6 +7,7 @@ import type { Mailer } from './mail/mailer';
 import type { FakeSmtp } from './mail/fakeSmtp';
 import type { EventBus } from './events/bus';
 import type { TelemetryMetrics } from './telemetry/metrics';
+import type { PushService } from './push/service';
 
 export interface BrokerStatus {
   /** 'up' when the embedded broker listens (or the external one is connected), 'down' otherwise. */
@@ -23,6 +24,8 @@ export interface AppContext {
   /** The fake SMTP server's captured mail (SMTP_FAKE=1 only). */
   mailbox: FakeSmtp | null;
   bus: EventBus;
+  /** Web Push: VAPID keys, sending, the fake push service (PUSH_FAKE=1); absent only in contexts built by hand. */
+  push?: PushService;
   broker: BrokerStatus;
   metrics: TelemetryMetrics;
   /** Publishes an MQTT message through the server's own client (settings, demo faults). */

@@ -20,6 +20,8 @@ import { SettingsService } from './telemetry/settings';
 import { scheduleRetention } from './telemetry/partitions';
 import { LiveHub } from './ws/hub';
 import { AlarmService } from './alarms/service';
+import { PushService } from './push/service';
+import { registerDemoPushDevice } from './push/demo';
 
 export interface RunningServer {
   url: string;
@@ -76,7 +78,10 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
     mode: !telemetry ? 'none' : config.MQTT_URL ? 'external' : 'embedded',
     state: () => (embedded ? (embedded.up ? 'up' : 'down') : ingest?.connected ? 'up' : 'down'),
   };
-  const ctx: AppContext = { config, logger, sequelize, models, mailer, mailbox, bus, broker: brokerStatus, metrics };
+  const push = await PushService.start(sequelize, config, logger);
+  stops.push(() => push.stop());
+  const ctx: AppContext = { config, logger, sequelize, models, mailer, mailbox, bus, broker: brokerStatus, metrics, push };
+  if (config.DEMO_MODE) await registerDemoPushDevice(ctx);
   const settings = new SettingsService(ctx);
 
   if (telemetry) {

@@ -8,6 +8,8 @@ import { controllerRoutes } from './controllers/routes';
 import { auditRoutes } from './audit/routes';
 import { refrigerantRoutes } from './refrigerants/routes';
 import { registerAlarmRoutes } from './alarms/routes';
+import { registerPushRoutes } from './push/routes';
+import { importRoutes } from './imports/routes';
 
 /** Mounts every feature's router on the API router. */
 export function registerFeatureRoutes(api: Router, ctx: AppContext): void {
@@ -18,6 +20,8 @@ export function registerFeatureRoutes(api: Router, ctx: AppContext): void {
   api.use('/controllers', controllerRoutes(ctx));
   api.use('/audit', auditRoutes(ctx));
   api.use('/refrigerants', refrigerantRoutes());
+  api.use('/imports', importRoutes(ctx)); // CSV import of boxes with controllers (admin, technician)
   registerAlarmRoutes(api, ctx); // /alarms, /boxes/:id/maintenance, /oncall
+  registerPushRoutes(api, ctx); // /push, and /dev/push-* with the fake push service
   // telemetry routes are mounted by the lead below
 }

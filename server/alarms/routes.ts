@@ -1,5 +1,5 @@
 /**
- * /api/v1/alarms (list, detail, ack, shelve, unshelve, ack by e-mailed link) and
+ * /api/v1/alarms (list, detail, ack, shelve, unshelve, ack by a notification link) and
  * /api/v1/boxes/:id/maintenance. Managers see and acknowledge their customer's alarms only
  * (others' are 404); technicians and admins also shelve and set maintenance.
  */
@@ -16,6 +16,7 @@ import { loadScopedBox } from '../boxes/service';
 import { actOnAlarm, alarmIdOfToken, loadScopedAlarm, type AlarmActionDeps } from './actions';
 import { toAlarmDto, toAlarmDtos, toNotificationDtos, toTransitionDtos } from './present';
 import { oncallRoutes } from './oncallRoutes';
+import { alarmRuleRoutes } from './ruleOverrideRoutes';
 
 const deps = (ctx: AppContext, req: Request): AlarmActionDeps => ({ ctx, requestId: typeof req.id === 'string' ? req.id : null });
 
@@ -51,7 +52,7 @@ export function alarmRoutes(ctx: AppContext): Router {
     const user = currentUser(req);
     const body = parseBody(AlarmAckLinkBody, req);
     const alarmId = await alarmIdOfToken(ctx, body.token);
-    res.json(await actOnAlarm(deps(ctx, req), user, alarmId, { action: 'ack', note: 'acknowledged from the e-mailed link' }, body.token));
+    res.json(await actOnAlarm(deps(ctx, req), user, alarmId, { action: 'ack', note: 'acknowledged from a notification link' }, body.token));
   });
 
   r.get('/:id', requireAuth, async (req, res) => {
@@ -118,5 +119,6 @@ export function maintenanceRoutes(ctx: AppContext): Router {
 export function registerAlarmRoutes(api: Router, ctx: AppContext): void {
   api.use('/alarms', alarmRoutes(ctx));
   api.use('/boxes', maintenanceRoutes(ctx));
+  api.use('/boxes', alarmRuleRoutes(ctx));
   api.use('/oncall', oncallRoutes(ctx));
 }

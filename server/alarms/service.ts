@@ -12,7 +12,9 @@ import type { AppContext } from '../context';
 import type { Box } from '../models';
 import type { EventBusMap } from '../events/bus';
 import { Op } from 'sequelize';
+import pLimit, { type LimitFunction } from 'p-limit';
 import { isTransientError } from '../telemetry/writer';
+import { ruleSettingsWithOverrides } from './ruleOverrides';
 import { applyCondition, escalateAlarm, escalateDue, expireShelving, publishAlarm, suppressBoxAlarms, unsuppressBoxAlarms, type AlarmBox, type MaintenanceActor } from './actions';
 
 /** Nominal controller reporting interval (s) when the box does not say (the simulator's default, docs/device-protocol.md). */
@@ -74,12 +76,16 @@ export class AlarmService {
   private readonly unsub: Array<() => void> = [];
   private timers: NodeJS.Timeout[] = [];
   private ticking: Promise<void> | null = null;
+  /** Runs box jobs with bounded concurrency (half the database pool). */
+  private readonly limitJobs: LimitFunction;
   private started = false;
 
   constructor(
     private readonly ctx: AppContext,
     private readonly opts: AlarmServiceOptions = {},
-  ) {}
+  ) {
+    this.limitJobs = pLimit(Math.max(1, Math.floor(ctx.config.DB_POOL_MAX / 2)));
+  }
 
   /** Loads every box's engine (from its snapshot when there is one), subscribes to the bus and starts the timers. */
   async start(): Promise<void> {
@@ -215,8 +221,10 @@ export class AlarmService {
 
   private enqueue(boxId: number, job: () => Promise<void>): void {
     const prev = this.chains.get(boxId) ?? Promise.resolve();
+    // Each box keeps its order; across boxes at most `limitJobs` run at once, so a burst (every
+    // box's first reading, a broker restart's last wills) leaves database connections for the HTTP side.
     const next = prev
-      .then(job)
+      .then(() => this.limitJobs(job))
       .catch((err) => this.ctx.logger.error({ err, boxId }, 'alarm processing failed'))
       .finally(() => {
         if (this.chains.get(boxId) === next) this.chains.delete(boxId);
@@ -235,12 +243,14 @@ export class AlarmService {
     const found = await this.boxFacts(boxId);
     if (!found) return null;
     const snap = await this.ctx.models.BoxEngineSnapshot.findByPk(boxId);
+    // The box's per-rule overrides (box_rule_overrides) come with its settings.
+    const settings = await ruleSettingsWithOverrides(this.ctx.models, found.row);
     let engine: BoxRuleEngine;
     try {
-      engine = new BoxRuleEngine(ruleSettingsOf(found.row), snap ? (JSON.parse(snap.snapshot) as EngineSnapshot) : undefined);
+      engine = new BoxRuleEngine(settings, snap ? (JSON.parse(snap.snapshot) as EngineSnapshot) : undefined);
     } catch (err) {
       this.ctx.logger.warn({ err, boxId }, 'engine snapshot unusable; starting the box fresh');
-      engine = new BoxRuleEngine(ruleSettingsOf(found.row));
+      engine = new BoxRuleEngine(settings);
     }
     const m = await this.ctx.models.BoxMaintenance.findByPk(boxId);
     if (m && m.untilAt.getTime() > Date.now()) engine.setMaintenance(m.untilAt.getTime());
@@ -255,7 +265,7 @@ export class AlarmService {
     const found = await this.boxFacts(boxId);
     if (!found) return void this.boxes.delete(boxId);
     s.box = found.facts;
-    s.engine.updateSettings(ruleSettingsOf(found.row));
+    s.engine.updateSettings(await ruleSettingsWithOverrides(this.ctx.models, found.row));
   }
 
   private async applyAll(boxId: number, events: ConditionEvent[]): Promise<void> {

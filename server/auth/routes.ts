@@ -27,7 +27,7 @@ function logIn(req: Request, user: SessionUser): Promise<void> {
 }
 
 function features(ctx: AppContext): SessionInfo['features'] {
-  return { demoMode: ctx.config.DEMO_MODE, devMailbox: ctx.config.SMTP_FAKE && ctx.mailbox !== null };
+  return { demoMode: ctx.config.DEMO_MODE, devMailbox: ctx.config.SMTP_FAKE && ctx.mailbox !== null, pushInbox: ctx.config.PUSH_FAKE && Boolean(ctx.push?.fake) };
 }
 
 /** The auth router. */

@@ -4,58 +4,16 @@
  * /boxes/:id/... live in another router mounted on the same path.
  */
 import { Router } from 'express';
-import { Op, type WhereOptions } from 'sequelize';
-import { z } from 'zod';
 import { BoxCreateBody, BoxUpdateBody, type BoxDto } from '../../shared/schemas/boxes';
-import type { RefrigerantId } from '../../shared/refrigerants';
 import type { AppContext } from '../context';
-import type { Box } from '../models';
-import { currentUser, requireAuth, requireRole, scopeWhere } from '../auth/guards';
-import { pageOf, pageResult, parseBody, parseId, parseQuery } from '../http/validate';
+import { currentUser, requireAuth, requireRole } from '../auth/guards';
+import { parseBody, parseId } from '../http/validate';
+import { parseListQuery } from '../http/list';
 import { problems } from '../http/problem';
-import { contains } from '../http/search';
 import { audit } from '../audit/service';
-import { toControllerSummary } from '../controllers/service';
-import { BOX_INCLUDE, createBox, deleteBox, loadScopedBox, maintenanceUntilByBox, updateBox, type BoxWithRelations } from './service';
+import { BOX_INCLUDE, BOX_LIST, createBox, deleteBox, listBoxes, loadScopedBox, maintenanceUntilByBox, toBoxDto, updateBox } from './service';
 
-/** Presents a box with its site and customer names, its controller and its maintenance end (°C, K, minutes, hours). */
-export function toBoxDto(b: BoxWithRelations, maintenanceUntil: Date | null): BoxDto {
-  return {
-    id: b.id,
-    siteId: b.siteId,
-    siteName: b.site?.name ?? '',
-    customerId: b.customerId,
-    customerName: b.customer?.name ?? '',
-    name: b.name,
-    kind: b.kind,
-    setpointC: b.setpointC,
-    differentialK: b.differentialK,
-    highLimitC: b.highLimitC,
-    lowLimitC: b.lowLimitC,
-    alarmDelayMin: b.alarmDelayMin,
-    doorAlarmDelayMin: b.doorAlarmDelayMin,
-    // The column is only ever written through the REFRIGERANT_IDS enum of the box schemas.
-    refrigerant: b.refrigerant as RefrigerantId,
-    valveType: b.valveType,
-    saturationMethod: b.saturationMethod,
-    superheatTargetK: b.superheatTargetK,
-    defrostType: b.defrostType,
-    defrostIntervalH: b.defrostIntervalH,
-    defrostMaxMin: b.defrostMaxMin,
-    defrostTerminationC: b.defrostTerminationC,
-    dripMin: b.dripMin,
-    fanDelayMin: b.fanDelayMin,
-    controller: b.controller ? toControllerSummary(b.controller) : null,
-    maintenanceUntil: maintenanceUntil ? maintenanceUntil.toISOString() : null,
-    createdAt: b.createdAt.toISOString(),
-    updatedAt: b.updatedAt.toISOString(),
-  };
-}
-
-const BoxFilter = z.object({
-  siteId: z.coerce.number().int().positive().optional(),
-  customerId: z.coerce.number().int().positive().optional(),
-});
+export { toBoxDto } from './service';
 
 /** The boxes router (CRUD only). */
 export function boxRoutes(ctx: AppContext): Router {
@@ -69,23 +27,7 @@ export function boxRoutes(ctx: AppContext): Router {
   }
 
   r.get('/', requireAuth, async (req, res) => {
-    const user = currentUser(req);
-    const p = pageOf(req);
-    const filter = parseQuery(BoxFilter, req);
-    const where: WhereOptions<Box>[] = [scopeWhere(user)];
-    if (filter.siteId !== undefined) where.push({ siteId: filter.siteId });
-    if (filter.customerId !== undefined) where.push({ customerId: filter.customerId });
-    if (p.q) where.push({ [Op.or]: [{ name: contains(p.q) }, { '$site.name$': contains(p.q) }] });
-    const { rows, count } = await models.Box.findAndCountAll({
-      where: { [Op.and]: where },
-      include: BOX_INCLUDE,
-      order: [['name', 'ASC'], ['id', 'ASC']],
-      limit: p.pageSize,
-      offset: p.offset,
-      distinct: true,
-    });
-    const until = await maintenanceUntilByBox(models, rows.map((b) => b.id));
-    res.json(pageResult(rows.map((b: BoxWithRelations) => toBoxDto(b, until.get(b.id) ?? null)), count, p));
+    res.json(await listBoxes(models, currentUser(req), parseListQuery(BOX_LIST, req.query)));
   });
 
   r.get('/:id', requireAuth, async (req, res) => {

@@ -1,6 +1,9 @@
 /** Boxes: tenant-scoped loading and the write use cases, with who may change which field. */
-import { ForeignKeyConstraintError, Op } from 'sequelize';
-import { DefrostSettings, type BoxCreateBody, type BoxUpdateBody } from '../../shared/schemas/boxes';
+import { ForeignKeyConstraintError, Op, type WhereOptions } from 'sequelize';
+import { z } from 'zod';
+import { DefrostSettings, type BoxCreateBody, type BoxDto, type BoxUpdateBody } from '../../shared/schemas/boxes';
+import type { Page } from '../../shared/schemas/common';
+import type { RefrigerantId } from '../../shared/refrigerants';
 import { ConfigSetPayload } from '../../shared/schemas/telemetry';
 import type { SessionUser } from '../../shared/schemas/auth';
 import type { AppContext } from '../context';
@@ -8,6 +11,8 @@ import type { Box, Controller, Models, Site } from '../models';
 import { scopeWhere } from '../auth/guards';
 import { HttpProblem, problems } from '../http/problem';
 import { changedKeys } from '../http/patch';
+import { defineList, runList, scopeByCustomer, type ListInputOf } from '../http/list';
+import { toControllerSummary } from '../controllers/service';
 
 /** A box loaded with its site, customer and controller. */
 export type BoxWithRelations = Box & { site?: Site; customer?: { name: string }; controller?: Controller | null };
@@ -19,6 +24,80 @@ export const BOX_INCLUDE = [
 ];
 
 type BoxField = keyof BoxUpdateBody;
+
+/** Presents a box with its site and customer names, its controller and its maintenance end (°C, K, minutes, hours). */
+export function toBoxDto(b: BoxWithRelations, maintenanceUntil: Date | null): BoxDto {
+  return {
+    id: b.id,
+    siteId: b.siteId,
+    siteName: b.site?.name ?? '',
+    customerId: b.customerId,
+    customerName: b.customer?.name ?? '',
+    name: b.name,
+    kind: b.kind,
+    setpointC: b.setpointC,
+    differentialK: b.differentialK,
+    highLimitC: b.highLimitC,
+    lowLimitC: b.lowLimitC,
+    alarmDelayMin: b.alarmDelayMin,
+    doorAlarmDelayMin: b.doorAlarmDelayMin,
+    // The column is only ever written through the REFRIGERANT_IDS enum of the box schemas.
+    refrigerant: b.refrigerant as RefrigerantId,
+    valveType: b.valveType,
+    saturationMethod: b.saturationMethod,
+    superheatTargetK: b.superheatTargetK,
+    defrostType: b.defrostType,
+    defrostIntervalH: b.defrostIntervalH,
+    defrostMaxMin: b.defrostMaxMin,
+    defrostTerminationC: b.defrostTerminationC,
+    dripMin: b.dripMin,
+    fanDelayMin: b.fanDelayMin,
+    controller: b.controller ? toControllerSummary(b.controller) : null,
+    maintenanceUntil: maintenanceUntil ? maintenanceUntil.toISOString() : null,
+    createdAt: b.createdAt.toISOString(),
+    updatedAt: b.updatedAt.toISOString(),
+  };
+}
+
+const BoxFilters = {
+  siteId: z.coerce.number().int().positive().optional(),
+  customerId: z.coerce.number().int().positive().optional(),
+  /** `false`: only boxes without a controller (the provisioning picker); `true`: only boxes with one. */
+  hasController: z.enum(['true', 'false']).optional(),
+};
+
+/** GET /boxes: `?siteId=`, `?customerId=`, `?hasController=`, searched by box and site name, sorted by a whitelisted column. */
+export const BOX_LIST = defineList<Box, 'name' | 'siteName' | 'customerName' | 'kind' | 'setpointC' | 'refrigerant' | 'updatedAt', typeof BoxFilters>({
+  sorts: {
+    name: ['name'],
+    siteName: ['site', 'name'],
+    customerName: ['customer', 'name'],
+    kind: ['kind'],
+    setpointC: ['setpointC'],
+    refrigerant: ['refrigerant'],
+    updatedAt: ['updatedAt'],
+  },
+  defaultSort: 'name',
+  search: (like) => ({ [Op.or]: [{ name: like }, { '$site.name$': like }] }),
+  filters: BoxFilters,
+  filterWhere: (f) => {
+    const out: WhereOptions<Box>[] = [];
+    if (f.siteId !== undefined) out.push({ siteId: f.siteId });
+    if (f.customerId !== undefined) out.push({ customerId: f.customerId });
+    if (f.hasController !== undefined) out.push({ '$controller.id$': f.hasController === 'true' ? { [Op.ne]: null } : null });
+    return out;
+  },
+  scope: scopeByCustomer<Box>(),
+  include: BOX_INCLUDE,
+});
+
+/** One page of the boxes the actor may see, with their controllers and maintenance ends. */
+export async function listBoxes(models: Models, actor: SessionUser, input: ListInputOf<typeof BOX_LIST>): Promise<Page<BoxDto>> {
+  return runList(models.Box, BOX_LIST, actor, input, async (rows) => {
+    const until = await maintenanceUntilByBox(models, rows.map((b) => b.id));
+    return rows.map((b: BoxWithRelations) => toBoxDto(b, until.get(b.id) ?? null));
+  });
+}
 
 /**
  * Settings the controller holds: these reach it through PUT /boxes/:id/settings (which records the

@@ -2,14 +2,14 @@
 import { Router } from 'express';
 import { Op, type WhereOptions } from 'sequelize';
 import { z } from 'zod';
-import { ControllerCreateBody, type ControllerSummary } from '../../shared/schemas/boxes';
+import { ControllerCreateBody, ControllerUpdateBody, type ControllerSummary } from '../../shared/schemas/boxes';
 import type { AppContext } from '../context';
 import type { Controller } from '../models';
 import { requireRole } from '../auth/guards';
 import { pageOf, pageResult, parseBody, parseId, parseQuery } from '../http/validate';
 import { contains } from '../http/search';
 import { audit } from '../audit/service';
-import { loadController, provisionController, rotateSecret, setDisabled, toControllerSummary } from './service';
+import { loadController, provisionController, rotateSecret, setDisabled, setGaugeReference, toControllerSummary } from './service';
 
 /** A row of GET /controllers: the summary plus where the controller is installed. */
 export interface ControllerListItem extends ControllerSummary {
@@ -111,6 +111,16 @@ export function controllerRoutes(ctx: AppContext): Router {
   r.post('/:id/disable', async (req, res) => {
     const c = await setDisabled(ctx, await loadController(ctx, parseId(req)), true);
     await auditAction(req, 'controller.disable', c);
+    res.json(toControllerSummary(c));
+  });
+
+  r.patch('/:id', async (req, res) => {
+    const body = parseBody(ControllerUpdateBody, req);
+    const c = await loadController(ctx, parseId(req));
+    const before = c.gaugeReference;
+    await setGaugeReference(ctx, c, body.gaugeReference);
+    const box = await models.Box.findByPk(c.boxId, { attributes: ['customerId'] });
+    await audit(models, req, { action: 'controller.update', entityType: 'controller', entityId: c.id, customerId: box?.customerId ?? null, detail: { serial: c.serial, gaugeReference: { from: before, to: c.gaugeReference } } });
     res.json(toControllerSummary(c));
   });
 

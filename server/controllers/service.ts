@@ -1,6 +1,6 @@
 /** Controller provisioning (admin only): create with a one-time secret, rotate it, disable and enable. */
 import { Op, UniqueConstraintError } from 'sequelize';
-import type { ControllerCreateBody, ControllerSummary } from '../../shared/schemas/boxes';
+import type { ControllerCreateBody, ControllerSummary, GaugeReference } from '../../shared/schemas/boxes';
 import type { AppContext } from '../context';
 import type { Controller } from '../models';
 import { problems } from '../http/problem';
@@ -13,6 +13,7 @@ export function toControllerSummary(c: Controller): ControllerSummary {
     serial: c.serial,
     valveFullSteps: c.valveFullSteps,
     firmware: c.firmware,
+    gaugeReference: c.gaugeReference,
     lastSeenAt: c.lastSeenAt?.toISOString() ?? null,
     online: c.online,
     disabled: c.disabled,
@@ -48,6 +49,7 @@ export async function provisionController(ctx: AppContext, body: ControllerCreat
       secretHash: hashDeviceSecret(deviceSecret),
       valveFullSteps: body.valveFullSteps,
       firmware: body.firmware,
+      gaugeReference: body.gaugeReference,
       lastSeenAt: null,
       secretRotatedAt: null,
     });
@@ -71,5 +73,13 @@ export async function rotateSecret(ctx: AppContext, c: Controller): Promise<Prov
 export async function setDisabled(ctx: AppContext, c: Controller, disabled: boolean): Promise<Controller> {
   await c.update({ disabled });
   if (disabled) ctx.bus.emit('controllerRevoked', { serial: c.serial, reason: 'disabled' });
+  return c;
+}
+
+/** Sets the declared reference of the controller's transducers; the ingest converts by it from now on. */
+export async function setGaugeReference(ctx: AppContext, c: Controller, gaugeReference: GaugeReference): Promise<Controller> {
+  if (c.gaugeReference === gaugeReference) return c;
+  await c.update({ gaugeReference });
+  ctx.bus.emit('boxChanged', { boxId: c.boxId });
   return c;
 }

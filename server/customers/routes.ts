@@ -1,30 +1,16 @@
 /** /api/v1/customers: list and get for every role (a manager sees only their own); writes admin only. */
 import { Router } from 'express';
-import { Op, type WhereOptions } from 'sequelize';
 import { CustomerBody, type CustomerDto } from '../../shared/schemas/customers';
 import type { AppContext } from '../context';
 import type { Customer } from '../models';
 import { currentUser, requireAuth, requireRole } from '../auth/guards';
-import { pageOf, pageResult, parseBody, parseId } from '../http/validate';
+import { parseBody, parseId } from '../http/validate';
+import { parseListQuery } from '../http/list';
 import { sentFields } from '../http/patch';
-import { contains } from '../http/search';
 import { audit } from '../audit/service';
-import { createCustomer, customerScope, deleteCustomer, loadScopedCustomer, siteCountsOf, updateCustomer } from './service';
+import { CUSTOMER_LIST, createCustomer, deleteCustomer, listCustomers, loadScopedCustomer, siteCountsOf, toCustomerDto, updateCustomer } from './service';
 
-/** Presents a customer row with its number of sites. */
-export function toCustomerDto(c: Customer, siteCount: number): CustomerDto {
-  return {
-    id: c.id,
-    name: c.name,
-    contactName: c.contactName,
-    contactEmail: c.contactEmail,
-    contactPhone: c.contactPhone,
-    notes: c.notes,
-    siteCount,
-    createdAt: c.createdAt.toISOString(),
-    updatedAt: c.updatedAt.toISOString(),
-  };
-}
+export { toCustomerDto } from './service';
 
 const CustomerPatchBody = CustomerBody.partial();
 
@@ -39,19 +25,7 @@ export function customerRoutes(ctx: AppContext): Router {
   }
 
   r.get('/', requireAuth, async (req, res) => {
-    const user = currentUser(req);
-    const p = pageOf(req);
-    const search: WhereOptions<Customer> = p.q
-      ? { [Op.or]: [{ name: contains(p.q) }, { contactName: contains(p.q) }, { contactEmail: contains(p.q) }] }
-      : {};
-    const { rows, count } = await models.Customer.findAndCountAll({
-      where: { [Op.and]: [customerScope(user), search] },
-      order: [['name', 'ASC'], ['id', 'ASC']],
-      limit: p.pageSize,
-      offset: p.offset,
-    });
-    const counts = await siteCountsOf(models, rows.map((c) => c.id));
-    res.json(pageResult(rows.map((c) => toCustomerDto(c, counts.get(c.id) ?? 0)), count, p));
+    res.json(await listCustomers(models, currentUser(req), parseListQuery(CUSTOMER_LIST, req.query)));
   });
 
   r.get('/:id', requireAuth, async (req, res) => {

@@ -1,15 +1,48 @@
 /** Customers: tenant-scoped loading, site counts, and the write use cases (admin only). */
 import { ForeignKeyConstraintError, Op, UniqueConstraintError, col, fn, type WhereOptions } from 'sequelize';
-import type { CustomerBody } from '../../shared/schemas/customers';
+import type { CustomerBody, CustomerDto } from '../../shared/schemas/customers';
 import type { SessionUser } from '../../shared/schemas/auth';
+import type { Page } from '../../shared/schemas/common';
 import type { Customer, Models } from '../models';
 import { scopeWhere } from '../auth/guards';
 import { problems } from '../http/problem';
+import { defineList, runList, type ListInputOf } from '../http/list';
+
+/** Presents a customer row with its number of sites. */
+export function toCustomerDto(c: Customer, siteCount: number): CustomerDto {
+  return {
+    id: c.id,
+    name: c.name,
+    contactName: c.contactName,
+    contactEmail: c.contactEmail,
+    contactPhone: c.contactPhone,
+    notes: c.notes,
+    siteCount,
+    createdAt: c.createdAt.toISOString(),
+    updatedAt: c.updatedAt.toISOString(),
+  };
+}
 
 /** The `where` limiting the customers table to the user's tenant (the tenant key is the row's own id). */
 export function customerScope(user: SessionUser): WhereOptions<Customer> {
   const scope = scopeWhere(user);
   return scope.customerId === undefined ? {} : { id: scope.customerId };
+}
+
+/** GET /customers: searched by name and contact, sorted by name (default) or creation time. */
+export const CUSTOMER_LIST = defineList<Customer, 'name' | 'createdAt'>({
+  sorts: { name: ['name'], createdAt: ['createdAt'] },
+  defaultSort: 'name',
+  search: (like) => ({ [Op.or]: [{ name: like }, { contactName: like }, { contactEmail: like }] }),
+  scope: customerScope,
+});
+
+/** One page of the customers the actor may see, each with its number of sites. */
+export async function listCustomers(models: Models, actor: SessionUser, input: ListInputOf<typeof CUSTOMER_LIST>): Promise<Page<CustomerDto>> {
+  return runList(models.Customer, CUSTOMER_LIST, actor, input, async (rows) => {
+    const counts = await siteCountsOf(models, rows.map((c) => c.id));
+    return rows.map((c) => toCustomerDto(c, counts.get(c.id) ?? 0));
+  });
 }
 
 /** One customer the user may see, or a 404 problem (another tenant's row is "not found"). */

@@ -10,6 +10,8 @@ import {
 } from 'sequelize';
 import type { BoxKind, DefrostType, Role, SaturationMethod, UnitSystemPref, ValveType } from '../../shared/domain';
 import { alarmModelClasses, initAlarmModels, type AlarmModels } from './alarms';
+import { GAUGE_REFERENCES, type GaugeReference } from '../../shared/schemas/boxes';
+import { initRuleOverrideModels, ruleOverrideModelClasses, type RuleOverrideModels } from './ruleOverrides';
 
 const id = { type: DataTypes.INTEGER.UNSIGNED, autoIncrement: true, primaryKey: true };
 const ts = { createdAt: DataTypes.DATE(3), updatedAt: DataTypes.DATE(3) };
@@ -74,6 +76,8 @@ export class Controller extends Model<InferAttributes<Controller>, InferCreation
   declare secretHash: string;
   declare valveFullSteps: number;
   declare firmware: string | null;
+  /** What the suction transducer reads against (migration 0008). */
+  declare gaugeReference: CreationOptional<GaugeReference>;
   declare lastSeenAt: Date | null;
   declare online: CreationOptional<boolean>;
   declare disabled: CreationOptional<boolean>;
@@ -127,7 +131,7 @@ export class SettingsChange extends Model<InferAttributes<SettingsChange>, Infer
   declare error: string | null;
 }
 
-export interface Models extends AlarmModels {
+export interface Models extends AlarmModels, RuleOverrideModels {
   Customer: typeof Customer;
   Site: typeof Site;
   Box: typeof Box;
@@ -151,9 +155,11 @@ export function initModels(sequelize: Sequelize): Models {
     AuditEntry: class extends AuditEntry {},
     SettingsChange: class extends SettingsChange {},
     ...alarmModelClasses(),
+    ...ruleOverrideModelClasses(),
   };
   initInto(sequelize, m);
   initAlarmModels(sequelize, m);
+  initRuleOverrideModels(sequelize, m);
   return m;
 }
 
@@ -207,6 +213,7 @@ function initInto(sequelize: Sequelize, m: Models): void {
       secretHash: str(100),
       valveFullSteps: { type: DataTypes.INTEGER, allowNull: false },
       firmware: str(40, true),
+      gaugeReference: { type: DataTypes.ENUM(...GAUGE_REFERENCES), allowNull: false, defaultValue: 'vented-gauge' },
       lastSeenAt: { type: DataTypes.DATE(3), allowNull: true },
       online: { type: DataTypes.BOOLEAN, allowNull: false, defaultValue: false },
       disabled: { type: DataTypes.BOOLEAN, allowNull: false, defaultValue: false },

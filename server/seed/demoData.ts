@@ -141,7 +141,8 @@ export const DEMO_CUSTOMERS: DemoCustomer[] = [
           cooler('Dairy walk-in', 'R-449A'),
           freezer('Bakery freezer', 'R-404A', { valveType: 'txv', superheatTargetK: 4 }),
           cooler('Floral cooler', 'R-134a', { setpointC: 4, highLimitC: 7, lowLimitC: 1 }),
-          freezer('Seafood freezer', 'R-744', { setpointC: -22 }),
+          // No R-744 box in the demo until the simulator models a CO₂ (transcritical or cascade) system.
+          freezer('Seafood freezer', 'R-448A', { setpointC: -22 }),
         ],
       },
     ],

@@ -1,35 +1,17 @@
 /** /api/v1/sites: list (`?customerId=`) and get for every role, scoped to the tenant; writes admin only. */
 import { Router } from 'express';
-import { Op, type WhereOptions } from 'sequelize';
-import { z } from 'zod';
 import { SiteBody, type SiteDto } from '../../shared/schemas/customers';
 import type { AppContext } from '../context';
-import type { Site } from '../models';
-import { currentUser, requireAuth, requireRole, scopeWhere } from '../auth/guards';
-import { pageOf, pageResult, parseBody, parseId, parseQuery } from '../http/validate';
+import { currentUser, requireAuth, requireRole } from '../auth/guards';
+import { parseBody, parseId } from '../http/validate';
+import { parseListQuery } from '../http/list';
 import { problems } from '../http/problem';
 import { sentFields } from '../http/patch';
-import { contains } from '../http/search';
 import { audit } from '../audit/service';
-import { SITE_INCLUDE, boxCountsOf, createSite, deleteSite, loadScopedSite, updateSite, type SiteWithCustomer } from './service';
+import { SITE_INCLUDE, SITE_LIST, boxCountsOf, createSite, deleteSite, listSites, loadScopedSite, toSiteDto, updateSite, type SiteWithCustomer } from './service';
 
-/** Presents a site with its customer's name and its number of boxes. */
-export function toSiteDto(s: SiteWithCustomer, customerName: string, boxCount: number): SiteDto {
-  return {
-    id: s.id,
-    customerId: s.customerId,
-    customerName,
-    name: s.name,
-    address: s.address,
-    timeZone: s.timeZone,
-    elevationM: s.elevationM,
-    boxCount,
-    createdAt: s.createdAt.toISOString(),
-    updatedAt: s.updatedAt.toISOString(),
-  };
-}
+export { toSiteDto } from './service';
 
-const SiteFilter = z.object({ customerId: z.coerce.number().int().positive().optional() });
 const SitePatchBody = SiteBody.partial();
 
 /** The sites router. */
@@ -46,22 +28,7 @@ export function siteRoutes(ctx: AppContext): Router {
   }
 
   r.get('/', requireAuth, async (req, res) => {
-    const user = currentUser(req);
-    const p = pageOf(req);
-    const filter = parseQuery(SiteFilter, req);
-    const where: WhereOptions<Site>[] = [scopeWhere(user)];
-    if (filter.customerId !== undefined) where.push({ customerId: filter.customerId });
-    if (p.q) where.push({ [Op.or]: [{ name: contains(p.q) }, { address: contains(p.q) }] });
-    const { rows, count } = await models.Site.findAndCountAll({
-      where: { [Op.and]: where },
-      include: SITE_INCLUDE,
-      order: [['name', 'ASC'], ['id', 'ASC']],
-      limit: p.pageSize,
-      offset: p.offset,
-    });
-    const counts = await boxCountsOf(models, rows.map((s) => s.id));
-    const items = rows.map((s: SiteWithCustomer) => toSiteDto(s, s.customer?.name ?? '', counts.get(s.id) ?? 0));
-    res.json(pageResult(items, count, p));
+    res.json(await listSites(models, currentUser(req), parseListQuery(SITE_LIST, req.query)));
   });
 
   r.get('/:id', requireAuth, async (req, res) => {

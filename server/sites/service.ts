@@ -1,17 +1,58 @@
 /** Sites: tenant-scoped loading, box counts, and the write use cases (admin only). */
 import { ForeignKeyConstraintError, Op, col, fn } from 'sequelize';
-import type { SiteBody } from '../../shared/schemas/customers';
+import { z } from 'zod';
+import type { SiteBody, SiteDto } from '../../shared/schemas/customers';
 import type { SessionUser } from '../../shared/schemas/auth';
+import type { Page } from '../../shared/schemas/common';
 import type { AppContext } from '../context';
 import type { Models, Site } from '../models';
 import { scopeWhere } from '../auth/guards';
 import { problems } from '../http/problem';
 import { assertCustomerExists } from '../customers/service';
+import { defineList, runList, scopeByCustomer, type ListInputOf } from '../http/list';
 
 /** A site loaded with its customer (for the customer's name). */
 export type SiteWithCustomer = Site & { customer?: { name: string } };
 
 export const SITE_INCLUDE = [{ association: 'customer', attributes: ['id', 'name'] }];
+
+/** Presents a site with its customer's name and its number of boxes. */
+export function toSiteDto(s: SiteWithCustomer, customerName: string, boxCount: number): SiteDto {
+  return {
+    id: s.id,
+    customerId: s.customerId,
+    customerName,
+    name: s.name,
+    address: s.address,
+    timeZone: s.timeZone,
+    elevationM: s.elevationM,
+    boxCount,
+    createdAt: s.createdAt.toISOString(),
+    updatedAt: s.updatedAt.toISOString(),
+  };
+}
+
+type SiteSort = 'name' | 'customerName' | 'timeZone' | 'elevationM';
+const SiteFilters = { customerId: z.coerce.number().int().positive().optional() };
+
+/** GET /sites: `?customerId=`, searched by name and address, sorted by name (default), customer, zone or elevation. */
+export const SITE_LIST = defineList<Site, SiteSort, typeof SiteFilters>({
+  sorts: { name: ['name'], customerName: ['customer', 'name'], timeZone: ['timeZone'], elevationM: ['elevationM'] },
+  defaultSort: 'name',
+  search: (like) => ({ [Op.or]: [{ name: like }, { address: like }] }),
+  filters: SiteFilters,
+  filterWhere: (f) => (f.customerId === undefined ? [] : [{ customerId: f.customerId }]),
+  scope: scopeByCustomer<Site>(),
+  include: SITE_INCLUDE,
+});
+
+/** One page of the sites the actor may see, with customer names and box counts. */
+export async function listSites(models: Models, actor: SessionUser, input: ListInputOf<typeof SITE_LIST>): Promise<Page<SiteDto>> {
+  return runList(models.Site, SITE_LIST, actor, input, async (rows) => {
+    const counts = await boxCountsOf(models, rows.map((s) => s.id));
+    return rows.map((s: SiteWithCustomer) => toSiteDto(s, s.customer?.name ?? '', counts.get(s.id) ?? 0));
+  });
+}
 
 /** One site the user may see, or a 404 problem (another tenant's site is "not found"). */
 export async function loadScopedSite(models: Models, user: SessionUser, id: number): Promise<SiteWithCustomer> {

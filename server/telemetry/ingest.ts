@@ -15,6 +15,7 @@ import { convertReading, type ConvertedReading } from './convert';
 import type { BoxCache } from './boxCache';
 import type { TelemetryMetrics, RejectReason } from './metrics';
 import { isTransientError, toDto, type ReadingWriter } from './writer';
+import { SensorQuality } from './quality';
 
 export interface IngestOptions {
   url: string;
@@ -76,6 +77,8 @@ export class Ingest {
   private reporting = new Set<number>();
   private touchTimer: NodeJS.Timeout | null = null;
   private lastRejectLog = new Map<string, number>();
+  /** Stuck-sensor state per box (open, shorted and out-of-range need none). */
+  private readonly quality = new SensorQuality();
   readonly counts = { accepted: 0, duplicates: 0, rejected: 0, outages: 0 };
   private readonly batchSize: number;
   private readonly windowMs: number;
@@ -198,7 +201,8 @@ export class Ingest {
     const data = r.data;
     const serial = t.serial;
     const slot = { kind: 'lookup', messageId, gen } as Item & { done?: Promise<void> };
-    slot.done = this.o.boxes.get(serial).then(
+    // The box's conversion settings as they were at the reading's time (a replayed reading is late).
+    slot.done = this.o.boxes.getAt(serial, tsMs).then(
       (box) => {
         if (!box) {
           this.reject(serial, 'unknown-serial', serial);
@@ -206,7 +210,10 @@ export class Ingest {
         } else if (box.disabled) {
           this.reject(serial, 'disabled', serial);
           Object.assign(slot, { kind: 'none' });
-        } else Object.assign(slot, { kind: 'reading', reading: convertReading(data, box), controllerId: box.controllerId, customerId: box.customerId, serial });
+        } else {
+          const sensors = this.quality.assess(box.boxId, data, box.saturationMethod, box.gaugeReference);
+          Object.assign(slot, { kind: 'reading', reading: convertReading(data, box, sensors), controllerId: box.controllerId, customerId: box.customerId, serial });
+        }
       },
       (err: unknown) => {
         // The database is failing: leave the message unacknowledged; the outage path reconnects.

@@ -7,10 +7,11 @@ import type { AppContext } from '../context';
 import { currentUser, requireAuth, requireRole, scopeWhere } from '../auth/guards';
 import { problems } from '../http/problem';
 import { parseBody, parseId, parseQuery } from '../http/validate';
-import { fleetStatus, latestReading, readingsBetween } from './queries';
+import { fleetStatusJson, latestReading, readingsBetween } from './queries';
 import { toChangeDto, type SettingsService } from './settings';
 import { SIM_FAULT_TOPIC } from '../mqtt/broker';
 import { audit } from '../audit/service';
+import { cyclesRoutes } from './cycles';
 
 
 /** The telemetry router (mounted on /api/v1). */
@@ -26,7 +27,7 @@ export function telemetryRoutes(ctx: AppContext, settings: SettingsService): Rou
   }
 
   r.get('/fleet/status', requireAuth, async (req, res) => {
-    res.json(await fleetStatus(sequelize, currentUser(req)));
+    res.type('application/json').send(await fleetStatusJson(sequelize, currentUser(req)));
   });
 
   r.get('/boxes/:id/latest', requireAuth, async (req, res) => {
@@ -41,6 +42,8 @@ export function telemetryRoutes(ctx: AppContext, settings: SettingsService): Rou
     const q = parseQuery(ReadingsQuery, req);
     res.json(await readingsBetween(sequelize, box.id, new Date(q.from), new Date(q.to), q.resolution));
   });
+
+  r.use(cyclesRoutes(ctx)); // GET /boxes/:id/cycles (server/telemetry/cycles.ts)
 
   r.put('/boxes/:id/settings', requireRole('admin', 'technician'), async (req, res) => {
     const box = await scopedBox(req);

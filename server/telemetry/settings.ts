@@ -7,7 +7,7 @@
 import { randomUUID } from 'node:crypto';
 import type { Request } from 'express';
 import { Op } from 'sequelize';
-import { COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K, formatTemperatureDelta } from '../../shared/field';
+import { EVAPORATOR_SUPERHEAT_FLOOR_K, formatTemperatureDelta } from '../../shared/field';
 import { RequestedSettings, screenAppliedSettings, type BoxSettingsBody, type SettingsChangeDto } from '../../shared/schemas/settings';
 import { topics, type ConfigAckPayload, type ConfigSetPayload } from '../../shared/schemas/telemetry';
 import type { AppContext } from '../context';
@@ -42,12 +42,12 @@ export class SettingsService {
   async request(req: Request, box: Box, body: BoxSettingsBody): Promise<SettingsChangeDto> {
     const { models } = this.ctx;
     const { override, ...changes } = body;
-    if (changes.superheatTargetK !== undefined && changes.superheatTargetK < COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K && !override) {
+    if (changes.superheatTargetK !== undefined && changes.superheatTargetK < EVAPORATOR_SUPERHEAT_FLOOR_K && !override) {
       throw problems.unprocessable(
         'superheat-below-minimum',
-        'Superheat target below the compressor-protection minimum',
-        `A target below ${formatTemperatureDelta(COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K, 'imperial')} (${COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K.toFixed(2)} K) risks liquid reaching the compressor. Send it again with an override reason if it is intended.`,
-        { superheatTargetK: ['Below the compressor-protection minimum; an override reason is required'] },
+        'Superheat target below the evaporator superheat floor',
+        `A target below ${formatTemperatureDelta(EVAPORATOR_SUPERHEAT_FLOOR_K, 'imperial')} (${EVAPORATOR_SUPERHEAT_FLOOR_K.toFixed(2)} K) (a common-practice floor for evaporator superheat) leaves little margin before liquid leaves the evaporator. Send it again with an override reason if it is intended.`,
+        { superheatTargetK: ['Below the evaporator superheat floor; an override reason is required'] },
       );
     }
     const ctl = await models.Controller.findOne({ where: { boxId: box.id } });

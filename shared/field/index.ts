@@ -2,3 +2,4 @@
 export * from './units';
 export * from './pressure';
 export * from './superheat';
+export * from './highSide';

@@ -11,11 +11,20 @@ import { gaugeToAbsoluteKPa } from './pressure';
 import { deltaFToDeltaK, formatTemperatureDelta, type UnitSystem } from './units';
 
 /**
- * Lowest superheat target accepted without an explicit override, K (5 °F difference = 2.78 K).
- * Common practice: technicians avoid running superheat below about 5 °F so that liquid does not
- * reach the compressor.
+ * Evaporator superheat floor, K (5 °F difference = 2.78 K): the lowest evaporator superheat target
+ * accepted without an explicit override, and the level below which superheat is called low.
+ * Common practice (no single source): technicians keep evaporator superheat above about 5 °F so that
+ * liquid does not leave the coil. It is a field rule of thumb for the evaporator, not a compressor
+ * maker's rating; the compressor maker's own minimum suction superheat, where given, governs.
  */
-export const COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K = deltaFToDeltaK(5);
+export const EVAPORATOR_SUPERHEAT_FLOOR_K = deltaFToDeltaK(5);
+
+/**
+ * Old name of EVAPORATOR_SUPERHEAT_FLOOR_K, K. Kept only so files outside shared/field that still use
+ * it (server/telemetry/settings.ts, tests/server) compile until they move to the new name.
+ * @deprecated Use EVAPORATOR_SUPERHEAT_FLOOR_K.
+ */
+export const COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K = EVAPORATOR_SUPERHEAT_FLOOR_K;
 
 /**
  * Glide, K, from which the two-thermistor method is flagged. Rimehold's choice: at 1 K and more the
@@ -123,8 +132,8 @@ export type SuperheatVerdict = 'low' | 'in-band' | 'high';
 
 export interface SuperheatJudgement {
   readonly verdict: SuperheatVerdict;
-  /** True when the superheat is below COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K. */
-  readonly belowCompressorProtection: boolean;
+  /** True when the superheat is below EVAPORATOR_SUPERHEAT_FLOOR_K (common practice). */
+  readonly belowSuperheatFloor: boolean;
   readonly message: string;
 }
 
@@ -144,14 +153,15 @@ export function judgeSuperheat(
   if (bandK < 0) throw new RangeError(`bandK must not be negative, got ${bandK}`);
   const fmt = (k: number): string => formatTemperatureDelta(k, system);
   const band = `${fmt(targetK - bandK)} to ${fmt(targetK + bandK)}`;
-  const belowCompressorProtection = superheatK < COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K;
-  const protection = belowCompressorProtection
-    ? ` It is also below the ${fmt(COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K)} minimum kept to protect the compressor.`
+  const belowSuperheatFloor = superheatK < EVAPORATOR_SUPERHEAT_FLOOR_K;
+  const protection = belowSuperheatFloor
+    ? ` It is also below the ${fmt(EVAPORATOR_SUPERHEAT_FLOOR_K)} evaporator superheat floor (common practice), ` +
+      `under which liquid may leave the coil.`
     : '';
   if (superheatK < targetK - bandK) {
     return {
       verdict: 'low',
-      belowCompressorProtection,
+      belowSuperheatFloor,
       message:
         `Superheat ${fmt(superheatK)} is below the target band of ${band}: the coil may be overfed, ` +
         `which risks liquid refrigerant reaching the compressor.${protection}`,
@@ -160,7 +170,7 @@ export function judgeSuperheat(
   if (superheatK > targetK + bandK) {
     return {
       verdict: 'high',
-      belowCompressorProtection,
+      belowSuperheatFloor,
       message:
         `Superheat ${fmt(superheatK)} is above the target band of ${band}: the coil may be short of ` +
         `refrigerant and not cooling with its whole surface.${protection}`,
@@ -168,7 +178,7 @@ export function judgeSuperheat(
   }
   return {
     verdict: 'in-band',
-    belowCompressorProtection,
+    belowSuperheatFloor,
     message: `Superheat ${fmt(superheatK)} is within the target band of ${band}.${protection}`,
   };
 }

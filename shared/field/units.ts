@@ -7,6 +7,8 @@ export const KPA_PER_PSI = 6.894757293168361;
 export const KPA_PER_BAR = 100;
 /** Kelvin at 0 °C (exact by definition). */
 export const KELVIN_AT_ZERO_C = 273.15;
+/** Metres in one international foot (exact by definition: international yard and pound agreement, 1959). */
+export const M_PER_FT = 0.3048;
 
 /** User display preference: imperial = °F and psig; metric = °C with bar(g) or kPa(g). */
 export type UnitSystem = 'imperial' | 'metric-bar' | 'metric-kpa';
@@ -54,6 +56,15 @@ export function psiToKPa(psi: number): number {
   return psi * KPA_PER_PSI;
 }
 
+/** m → ft (lengths such as site elevation). */
+export function mToFt(m: number): number {
+  return m / M_PER_FT;
+}
+/** ft → m. */
+export function ftToM(ft: number): number {
+  return ft * M_PER_FT;
+}
+
 /** Unit label for absolute temperatures in a unit system: '°F' or '°C'. */
 export function temperatureUnit(system: UnitSystem): '°F' | '°C' {
   return system === 'imperial' ? '°F' : '°C';
@@ -66,6 +77,15 @@ export function temperatureDeltaUnit(system: UnitSystem): '°F' | 'K' {
 export function pressureGaugeUnit(system: UnitSystem): 'psig' | 'bar(g)' | 'kPa(g)' {
   if (system === 'imperial') return 'psig';
   return system === 'metric-bar' ? 'bar(g)' : 'kPa(g)';
+}
+
+/** Unit label for lengths (site elevation): 'ft' (imperial) or 'm' (metric). */
+export function lengthUnit(system: UnitSystem): 'ft' | 'm' {
+  return system === 'imperial' ? 'ft' : 'm';
+}
+/** A length in the system's unit (ft or m) from m. */
+export function lengthForDisplay(m: number, system: UnitSystem): number {
+  return system === 'imperial' ? mToFt(m) : m;
 }
 
 /** Absolute temperature in the system's unit (°F or °C) from °C. */
@@ -132,4 +152,14 @@ export function parsePressureGaugeKPaG(input: string | number, system: UnitSyste
   const v = parseUserNumber(input);
   if (system === 'imperial') return psiToKPa(v);
   return system === 'metric-bar' ? barToKPa(v) : v;
+}
+/** m from a length typed in the system's unit (ft or m). */
+export function parseLengthM(input: string | number, system: UnitSystem): number {
+  const v = parseUserNumber(input);
+  return system === 'imperial' ? ftToM(v) : v;
+}
+/** Text such as "1250 ft" or "381 m" (whole units by default) from m; "—" for a missing value. */
+export function formatLength(m: number, system: UnitSystem, digits = 0): string {
+  if (!Number.isFinite(m)) return MISSING;
+  return `${fixed(lengthForDisplay(m, system), digits)} ${lengthUnit(system)}`;
 }

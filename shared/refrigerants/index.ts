@@ -14,6 +14,7 @@ import {
   LN_P_SCALE,
   type GeneratedRefrigerant,
 } from './data.generated';
+import { RefrigerantRangeError, SupercriticalError, UnknownRefrigerantError } from './errors';
 
 /** Every refrigerant id Rimehold knows, as ASHRAE 34 writes it; a readonly tuple usable in `z.enum`. */
 export const REFRIGERANT_IDS = GENERATED_IDS;
@@ -43,6 +44,10 @@ export interface RefrigerantInfo {
   readonly glideAtDewC: number;
   /** Saturation temperatures accepted on both curves, °C. */
   readonly validRange: { readonly minC: number; readonly maxC: number };
+  /** Where and why the tables end at validRange.maxC (a few K below the critical point, or the mixture model's limit). */
+  readonly upperLimit: string;
+  /** Critical point (CoolProp) for pure fluids; null for blends (their tables end below the mixture's critical region). */
+  readonly critical: { readonly temperatureC: number; readonly pressureKPaAbs: number } | null;
   /** Absolute pressures accepted on each curve, kPa. */
   readonly validPressureKPaAbs: { readonly dew: PressureRangeKPaAbs; readonly bubble: PressureRangeKPaAbs };
   readonly kind: RefrigerantKind;
@@ -56,52 +61,12 @@ export interface RefrigerantInfo {
   readonly dataSource: string;
 }
 
-/** Thrown for an input outside a refrigerant's valid range, NaN or a non-finite number. */
-export class RefrigerantRangeError extends RangeError {
-  readonly id: RefrigerantId;
-  readonly quantity: RefrigerantQuantity;
-  readonly value: number;
-  readonly min: number;
-  readonly max: number;
-  readonly curve: SaturationCurveName;
-
-  constructor(
-    id: RefrigerantId,
-    quantity: RefrigerantQuantity,
-    value: number,
-    min: number,
-    max: number,
-    curve: SaturationCurveName,
-  ) {
-    const unit = quantity === 'temperatureC' ? '°C' : 'kPa abs';
-    super(
-      `${id} ${curve}-point ${quantity === 'temperatureC' ? 'temperature' : 'pressure'} ${String(value)} ${unit} ` +
-        `is outside the valid range ${round(min)}..${round(max)} ${unit}`,
-    );
-    this.name = 'RefrigerantRangeError';
-    this.id = id;
-    this.quantity = quantity;
-    this.value = value;
-    this.min = min;
-    this.max = max;
-    this.curve = curve;
-  }
-}
-
-/** Thrown for a refrigerant id Rimehold has no data for. */
-export class UnknownRefrigerantError extends Error {
-  readonly id: string;
-
-  constructor(id: string) {
-    super(`Unknown refrigerant "${id}"; known: ${REFRIGERANT_IDS.join(', ')}`);
-    this.name = 'UnknownRefrigerantError';
-    this.id = id;
-  }
-}
-
-function round(x: number): string {
-  return String(Math.round(x * 1000) / 1000);
-}
+export {
+  RefrigerantRangeError,
+  SupercriticalError,
+  UnknownRefrigerantError,
+  type RefrigerantErrorCode,
+} from './errors';
 
 // Slack on the ln P range check, absorbing the last-bit rounding of exp/log at the range ends
 // (1e-12 relative pressure, ~1e-11 K); anything further out is refused, never clamped.
@@ -259,6 +224,7 @@ function solveSegment(c: Float64Array, seg: number, target: number): number {
 interface RefrigerantTables {
   readonly dew: SaturationCurve;
   readonly bubble: SaturationCurve;
+  readonly critical: { readonly temperatureC: number; readonly pressureKPaAbs: number } | null;
 }
 
 const GLIDE_AT_DEW_C = -10;
@@ -270,6 +236,10 @@ for (const g of GENERATED_REFRIGERANTS) {
   const tables: RefrigerantTables = {
     dew: new SaturationCurve(g.minC, g.maxC, g.dewLnPkPaMicro),
     bubble: new SaturationCurve(g.minC, g.maxC, g.bubbleLnPkPaMicro),
+    critical:
+      g.criticalC === null || g.criticalKPaAbs === null
+        ? null
+        : Object.freeze({ temperatureC: g.criticalC, pressureKPaAbs: g.criticalKPaAbs }),
   };
   TABLES.set(id, tables);
   const pAtDew = tables.dew.pressureKPa(GLIDE_AT_DEW_C);
@@ -285,6 +255,8 @@ for (const g of GENERATED_REFRIGERANTS) {
       glideK: Math.round(glide * 1000) / 1000 + 0, // + 0 turns -0 into 0
       glideAtDewC: GLIDE_AT_DEW_C,
       validRange: Object.freeze({ minC: g.minC, maxC: g.maxC }),
+      upperLimit: g.upperLimit,
+      critical: tables.critical,
       validPressureKPaAbs: Object.freeze({
         dew: Object.freeze({ min: tables.dew.minKPa, max: tables.dew.maxKPa }),
         bubble: Object.freeze({ min: tables.bubble.minKPa, max: tables.bubble.maxKPa }),
@@ -298,12 +270,29 @@ for (const g of GENERATED_REFRIGERANTS) {
   );
 }
 
-function curveFor(id: RefrigerantId, curve: SaturationCurveName): SaturationCurve {
+function tablesFor(id: RefrigerantId, curve: SaturationCurveName): RefrigerantTables {
   const t = TABLES.get(id);
   if (t === undefined) throw new UnknownRefrigerantError(String(id));
-  if (curve === 'dew') return t.dew;
-  if (curve === 'bubble') return t.bubble;
-  throw new TypeError(`curve must be 'dew' or 'bubble', got ${String(curve)}`);
+  if (curve !== 'dew' && curve !== 'bubble') throw new TypeError(`curve must be 'dew' or 'bubble', got ${String(curve)}`);
+  return t;
+}
+
+/** Critical point of a pure fluid (CoolProp), or null for a blend; throws UnknownRefrigerantError. */
+export function criticalPoint(id: RefrigerantId): { readonly temperatureC: number; readonly pressureKPaAbs: number } | null {
+  return getRefrigerant(id).critical;
+}
+
+/** True when an absolute pressure, kPa, is at or above a pure fluid's critical pressure (never for blends). */
+export function isSupercriticalPressure(id: RefrigerantId, pressureKPaAbs: number): boolean {
+  const c = criticalPoint(id);
+  return c !== null && pressureKPaAbs >= c.pressureKPaAbs;
+}
+
+/** The range error with, for a value above the tables, where and why they end (stated, never clamped). */
+function withUpperLimit(e: RefrigerantRangeError, above: boolean): RefrigerantRangeError {
+  const limit = INFO.get(e.id)?.upperLimit;
+  if (above && limit !== undefined) e.message += `; this table ${limit}`;
+  return e;
 }
 
 /** True if x is one of REFRIGERANT_IDS. */
@@ -325,20 +314,28 @@ export function getRefrigerant(id: RefrigerantId): RefrigerantInfo {
 
 /** Saturation pressure, kPa absolute, at temperatureC (°C) on the dew or bubble curve. */
 export function saturationPressure(id: RefrigerantId, temperatureC: number, curve: SaturationCurveName): number {
-  const c = curveFor(id, curve);
+  const t = tablesFor(id, curve);
+  const c = t[curve];
   // Written so that NaN fails the test and throws.
   if (!(temperatureC >= c.minC && temperatureC <= c.maxC)) {
-    throw new RefrigerantRangeError(id, 'temperatureC', temperatureC, c.minC, c.maxC, curve);
+    if (t.critical !== null && temperatureC >= t.critical.temperatureC) {
+      throw new SupercriticalError(id, 'temperatureC', temperatureC, c.minC, c.maxC, curve, t.critical);
+    }
+    throw withUpperLimit(new RefrigerantRangeError(id, 'temperatureC', temperatureC, c.minC, c.maxC, curve), temperatureC > c.maxC);
   }
   return c.pressureKPa(temperatureC);
 }
 
 /** Saturation temperature, °C, at pressureKPaAbs (kPa absolute) on the dew or bubble curve. */
 export function saturationTemperature(id: RefrigerantId, pressureKPaAbs: number, curve: SaturationCurveName): number {
-  const c = curveFor(id, curve);
+  const t = tablesFor(id, curve);
+  const c = t[curve];
   const lnP = Math.log(pressureKPaAbs); // NaN for NaN or negative input, -Infinity for 0
   if (!(lnP >= c.lnPMin - LN_P_SLACK && lnP <= c.lnPMax + LN_P_SLACK)) {
-    throw new RefrigerantRangeError(id, 'pressureKPaAbs', pressureKPaAbs, c.minKPa, c.maxKPa, curve);
+    if (t.critical !== null && pressureKPaAbs >= t.critical.pressureKPaAbs) {
+      throw new SupercriticalError(id, 'pressureKPaAbs', pressureKPaAbs, c.minKPa, c.maxKPa, curve, t.critical);
+    }
+    throw withUpperLimit(new RefrigerantRangeError(id, 'pressureKPaAbs', pressureKPaAbs, c.minKPa, c.maxKPa, curve), lnP > c.lnPMax);
   }
   return c.temperatureC(lnP);
 }

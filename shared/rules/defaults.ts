@@ -5,7 +5,7 @@
  * values marked "common practice" have no code source (TRADE-NOTES §2, partly from memory).
  */
 import type { BoxKind } from '../domain';
-import { COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K } from '../field/superheat';
+import { EVAPORATOR_SUPERHEAT_FLOOR_K } from '../field/superheat';
 import type { AlarmRuleId, RuleBoxSettings, RuleOverride } from '../alarms/types';
 
 export type EffectiveRule = Required<RuleOverride>;
@@ -26,7 +26,7 @@ export const TIME_AS_CONTROL_MIN = 240;
 export const DEFROST_RECOVERY_MIN = 30;
 /** Superheat rules ignore the first minutes after a compressor start (pull-down), min: common practice. */
 export const SUPERHEAT_START_IGNORE_MIN = 5;
-/** superheat-low fires below target − this band (or below the compressor-protection minimum), K: our choice. */
+/** superheat-low fires below target − this band (or below the evaporator superheat floor), K: our choice. */
 export const SUPERHEAT_LOW_BAND_K = 1.5;
 /** superheat-high fires above target + this band, K: our choice (an EEV holds 2–4 K, TRADE-NOTES §3, from memory). */
 export const SUPERHEAT_HIGH_BAND_K = 5;
@@ -39,8 +39,8 @@ export function ruleDefaults(kind: BoxKind): Record<AlarmRuleId, EffectiveRule> 
   return {
     'box-air-high': { enabled: true, threshold: cooler ? COOLER_HIGH_LIMIT_C : FREEZER_HIGH_LIMIT_C, delayMin: TEMPERATURE_DELAY_MIN, clearDelayMin: 5, deadband: 1, priority: 'high' },
     'box-air-low': { enabled: true, threshold: cooler ? COOLER_LOW_LIMIT_C : FREEZER_LOW_LIMIT_C, delayMin: TEMPERATURE_DELAY_MIN, clearDelayMin: 5, deadband: 1, priority: cooler ? 'high' : 'medium' },
-    // 5 °F (2.78 K): compressor-protection minimum (shared/field/superheat, common practice); 10 min delay our choice.
-    'superheat-low': { enabled: true, threshold: COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K, delayMin: 10, clearDelayMin: 2, deadband: 0.5, priority: 'high' },
+    // 5 °F (2.78 K): evaporator superheat floor (shared/field/superheat, common practice); 10 min delay our choice.
+    'superheat-low': { enabled: true, threshold: EVAPORATOR_SUPERHEAT_FLOOR_K, delayMin: 10, clearDelayMin: 2, deadband: 0.5, priority: 'high' },
     'superheat-high': { enabled: true, threshold: (cooler ? 4 : 3) + SUPERHEAT_HIGH_BAND_K, delayMin: 15, clearDelayMin: 5, deadband: 1, priority: 'medium' },
     // Threshold = the box's defrost limit (min); the delay is the margin past it (our choice: 10 min covers drip time).
     'defrost-overtime': { enabled: true, threshold: cooler ? 30 : 40, delayMin: 10, clearDelayMin: 0, deadband: 0, priority: 'medium' },
@@ -75,7 +75,7 @@ export function effectiveRule(settings: RuleBoxSettings, ruleId: AlarmRuleId): E
       rule.delayMin = settings.alarmDelayMin;
       break;
     case 'superheat-low':
-      rule.threshold = Math.min(COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K, settings.superheatTargetK - SUPERHEAT_LOW_BAND_K);
+      rule.threshold = Math.min(EVAPORATOR_SUPERHEAT_FLOOR_K, settings.superheatTargetK - SUPERHEAT_LOW_BAND_K);
       break;
     case 'superheat-high':
       rule.threshold = settings.superheatTargetK + SUPERHEAT_HIGH_BAND_K;
@@ -100,3 +100,22 @@ export function effectiveRule(settings: RuleBoxSettings, ruleId: AlarmRuleId): E
   }
   return rule;
 }
+
+/**
+ * Where each rule's default comes from, in words for the box's rule table (the same sources as the
+ * constants and comments above; the box's own settings feed the rules that say so).
+ */
+export const RULE_DEFAULT_SOURCES: Record<AlarmRuleId, string> = {
+  'box-air-high': "Limit and delay: the box's high limit and alarm delay (cooler 41 °F / 5 °C, FDA Food Code 3-501.16(A)(2); freezer +10 °F, common practice; delay 30–60 min, common practice). Critical after 4 h above, FDA Food Code 3-501.19(B).",
+  'box-air-low': "Limit and delay: the box's low limit and alarm delay (cooler 32 °F, product starts freezing, common practice; freezer about −22 °F, our choice).",
+  'superheat-low': "Threshold: the lower of 5 °F (2.8 K), the evaporator superheat floor (common practice), and the box's superheat target − 1.5 K (our choice). Delay 10 min, our choice.",
+  'superheat-high': "Threshold: the box's superheat target + 5 K (our choice; an EEV holds 2–4 K, common practice). Delay 15 min, our choice.",
+  'defrost-overtime': "Threshold: the box's defrost time limit; 10 min past it for drip time, our choice.",
+  'defrost-timed-termination': 'Three defrosts in a row ending on time, our choice; off by default on coolers, whose off-cycle defrost often ends on time by design (common practice).',
+  'door-open': "Delay: the box's door alarm delay (3–10 min, common practice).",
+  'short-cycling': 'More than 10 compressor starts in an hour (6–10/h, common practice).',
+  'long-run': 'Compressor running 4 h without a stop with box air above setpoint (common practice).',
+  'pump-down-failure': 'More than 2 failed pump-downs or restarts without a call in 2 h, our choice.',
+  'sensor-fault': 'Off-scale thermistor at once; a box-air reading unchanged for 3 h while the compressor cycles, our choice.',
+  'controller-offline': 'Three missed reporting intervals, or the controller’s last will (as the alarm specification sets).',
+};

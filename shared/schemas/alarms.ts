@@ -96,3 +96,95 @@ export interface AlarmDetailDto extends AlarmDto {
   transitions: AlarmTransitionDto[];
   notifications: AlarmNotificationDto[];
 }
+
+/** Unit of a rule's threshold: °C (limits), K (superheat), minutes, or a count (defrosts, starts per hour, failures, missed intervals). */
+export type RuleThresholdUnit = 'C' | 'K' | 'min' | 'count';
+
+/** What a per-box override may set a rule's threshold to; null: the rule has no threshold of its own (door-open). */
+export interface RuleThresholdRange {
+  unit: RuleThresholdUnit;
+  min: number;
+  max: number;
+  integer: boolean;
+}
+
+/**
+ * Override ranges of each rule's threshold. Box-air limits use the box limits (BOX_LIMITS.limitC,
+ * −50…25 °C); superheat 0.5–30 K covers every EEV target band with room; the counts and times
+ * are bounded so the rule can still fire inside its window (our choice).
+ */
+export const RULE_THRESHOLDS: Record<AlarmRuleId, RuleThresholdRange | null> = {
+  'box-air-high': { unit: 'C', min: -50, max: 25, integer: false },
+  'box-air-low': { unit: 'C', min: -50, max: 25, integer: false },
+  'superheat-low': { unit: 'K', min: 0.5, max: 30, integer: false },
+  'superheat-high': { unit: 'K', min: 0.5, max: 30, integer: false },
+  'defrost-overtime': { unit: 'min', min: 5, max: 240, integer: false },
+  'defrost-timed-termination': { unit: 'count', min: 1, max: 20, integer: true },
+  'door-open': null,
+  'short-cycling': { unit: 'count', min: 2, max: 60, integer: true },
+  'long-run': { unit: 'min', min: 30, max: 1440, integer: false },
+  'pump-down-failure': { unit: 'count', min: 0, max: 20, integer: true },
+  'sensor-fault': { unit: 'min', min: 10, max: 1440, integer: false },
+  'controller-offline': { unit: 'count', min: 2, max: 60, integer: true },
+};
+
+/** Longest delay or clear delay of an override, min (one day). */
+export const RULE_OVERRIDE_MAX_DELAY_MIN = 1440;
+/** Largest deadband of an override, in the threshold's unit (K for temperatures). */
+export const RULE_OVERRIDE_MAX_DEADBAND = 10;
+
+const minutes = (label: string) =>
+  z.number({ error: `${label} must be a number of minutes` }).min(0, `${label}: at least 0 min`).max(RULE_OVERRIDE_MAX_DELAY_MIN, `${label}: at most ${RULE_OVERRIDE_MAX_DELAY_MIN} min (one day)`);
+
+/** PUT /api/v1/boxes/:id/alarm-rules/:ruleId: the box's whole override of one rule; a field left out keeps the default. */
+export const RuleOverrideBody = z
+  .object({
+    enabled: z.boolean().optional(),
+    threshold: z.number({ error: 'Threshold must be a number' }).finite().optional(),
+    delayMin: minutes('Delay').optional(),
+    clearDelayMin: minutes('Clear delay').optional(),
+    deadband: z.number({ error: 'Deadband must be a number' }).min(0, 'Deadband: at least 0').max(RULE_OVERRIDE_MAX_DEADBAND, `Deadband: at most ${RULE_OVERRIDE_MAX_DEADBAND}`).optional(),
+    priority: z.enum(ALARM_PRIORITIES).optional(),
+  })
+  .strict()
+  .refine((b) => Object.values(b).some((v) => v !== undefined), { message: 'Set at least one field, or DELETE the override to return to the defaults' });
+export type RuleOverrideBody = z.infer<typeof RuleOverrideBody>;
+
+/** The override body for one rule: RuleOverrideBody plus the rule's own threshold range. */
+export function ruleOverrideBodyFor(ruleId: AlarmRuleId) {
+  const range = RULE_THRESHOLDS[ruleId];
+  return RuleOverrideBody.superRefine((b, ctx) => {
+    if (b.threshold === undefined) return;
+    if (range === null) ctx.addIssue({ code: 'custom', path: ['threshold'], message: `${ruleId} has no threshold to override (change its delay instead)` });
+    else if (b.threshold < range.min || b.threshold > range.max) ctx.addIssue({ code: 'custom', path: ['threshold'], message: `Threshold of ${ruleId}: ${range.min} to ${range.max} (${range.unit})` });
+    else if (range.integer && !Number.isInteger(b.threshold)) ctx.addIssue({ code: 'custom', path: ['threshold'], message: `Threshold of ${ruleId} is a whole count` });
+  });
+}
+
+/** A rule's values as the engine applies them (threshold in the rule's unit, times in minutes). */
+export interface RuleValuesDto {
+  enabled: boolean;
+  threshold: number;
+  delayMin: number;
+  clearDelayMin: number;
+  deadband: number;
+  priority: AlarmPriority;
+}
+
+/** One rule of a box: its default (kind and box settings) with the source, the box's override and the effective value. */
+export interface BoxAlarmRuleDto {
+  ruleId: AlarmRuleId;
+  threshold: RuleThresholdRange | null;
+  default: RuleValuesDto;
+  defaultSource: string;
+  override: RuleOverrideBody | null;
+  overrideUpdatedAt: string | null;
+  overrideUpdatedBy: { id: number; name: string } | null;
+  effective: RuleValuesDto;
+}
+
+/** GET /api/v1/boxes/:id/alarm-rules. */
+export interface BoxAlarmRulesDto {
+  boxId: number;
+  rules: BoxAlarmRuleDto[];
+}

@@ -29,10 +29,12 @@ export interface SessionUser {
   unitSystem: (typeof UNIT_SYSTEMS)[number];
 }
 
-/** Server features the client may show: demo fault injection, the dev mailbox. */
+/** Server features the client may show: demo fault injection, the dev mailbox, the push inbox. */
 export interface ServerFeatures {
   demoMode: boolean;
   devMailbox: boolean;
+  /** The fake push service runs (PUSH_FAKE=1): admins may read what it received. Absent means off. */
+  pushInbox?: boolean;
 }
 
 /** Answer of sign-in and of `GET /api/v1/auth/me`: the user, the CSRF token for state-changing calls, features. */

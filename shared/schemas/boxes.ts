@@ -61,10 +61,19 @@ export type BoxCreateBody = z.infer<typeof BoxCreateBody>;
 export const BoxUpdateBody = boxFields.partial().refine(limitsOrdered, limitsMsg);
 export type BoxUpdateBody = z.infer<typeof BoxUpdateBody>;
 
+/**
+ * What a controller's suction transducer reads against (docs/device-protocol.md): the local
+ * atmosphere (vented gauge), standard sea-level atmosphere 101.325 kPa (sealed gauge), or vacuum (absolute).
+ */
+export const GAUGE_REFERENCES = ['vented-gauge', 'sealed-gauge', 'absolute'] as const;
+export type GaugeReference = (typeof GAUGE_REFERENCES)[number];
+
 export interface ControllerSummary {
   id: number;
   serial: string;
   valveFullSteps: number;
+  /** Reference of the suction (and liquid) transducer's readings. */
+  gaugeReference?: GaugeReference;
   firmware: string | null;
   lastSeenAt: string | null;
   online: boolean;
@@ -92,5 +101,10 @@ export const ControllerCreateBody = z.object({
     .regex(/^[A-Za-z0-9][A-Za-z0-9_-]{2,39}$/, 'Serial: 3–40 letters, digits, - or _'),
   valveFullSteps: z.number().int().min(100).max(10_000).default(DEFAULT_VALVE_FULL_STEPS),
   firmware: z.string().trim().max(40).nullable().default(null),
+  gaugeReference: z.enum(GAUGE_REFERENCES).default('vented-gauge'),
 });
 export type ControllerCreateBody = z.infer<typeof ControllerCreateBody>;
+
+/** Admin changes a controller's declared transducer reference (PATCH /controllers/:id). */
+export const ControllerUpdateBody = z.object({ gaugeReference: z.enum(GAUGE_REFERENCES) }).strict();
+export type ControllerUpdateBody = z.infer<typeof ControllerUpdateBody>;

@@ -10,7 +10,10 @@ export const FAULT_NAMES = [
   'door-ajar',
   'thermistor-open',
   'thermistor-shorted',
+  'sensor-stuck',
+  'sensor-drift',
   'valve-leak-through',
+  'valve-leak-through-severe',
   'short-cycling',
   'offline',
 ] as const;

@@ -4,6 +4,23 @@ import type { BoxKind, ValveType } from '../domain';
 import type { SettingsChangeDto } from './settings';
 import type { AlarmDto } from './alarms';
 
+/** Why a reading's value is missing or doubtful (server/telemetry/quality.ts, convert.ts). */
+export const READING_FLAG_CODES = ['sensor-open', 'sensor-shorted', 'sensor-out-of-range', 'sensor-stuck', 'conversion', 'glide', 'negative-subcooling', 'supercritical'] as const;
+export type ReadingFlagCode = (typeof READING_FLAG_CODES)[number];
+/** Values of a reading a flag can stand in for (where the screen shows it). */
+export type ReadingFlagTarget = 'boxAirC' | 'suctionKPaG' | 'suctionLineC' | 'saturatedSuctionC' | 'superheatK' | 'coilInletC' | 'dischargeAirC' | 'liquidKPaG' | 'liquidLineC' | 'subcoolingK' | 'valvePercent';
+
+/** One stated reason with a reading: the sensor (telemetry field) it concerns and the values it blanks or qualifies. */
+export interface ReadingFlag {
+  code: ReadingFlagCode;
+  /** Telemetry field of the sensor concerned, when a sensor is. */
+  sensor?: ReadingFlagTarget;
+  /** Values this flag stands in for (blank) or qualifies (glide, negative subcooling). */
+  affects: ReadingFlagTarget[];
+  /** Plain-words reason, e.g. "Suction-line sensor open (reads −60.0 °C): no superheat". */
+  message: string;
+}
+
 /** One converted reading as the API and the WebSocket present it. Temperatures °C, pressures kPa(g), differences K. */
 export interface ReadingDto {
   ts: string;
@@ -25,6 +42,10 @@ export interface ReadingDto {
   fanOn: boolean;
   defrostOn: boolean;
   doorOpen: boolean;
+  /** Stated reasons for missing or doubtful values (absent on readings stored before they were kept). */
+  flags?: ReadingFlag[];
+  /** Glide at the coil-inlet reading, K, on the two-thermistor method (null otherwise). */
+  glideK?: number | null;
 }
 
 export interface FleetBoxStatus {
@@ -39,6 +60,8 @@ export interface FleetBoxStatus {
   superheatTargetK: number;
   siteId: number;
   siteName: string;
+  /** The site's IANA time zone (e.g. 'Europe/Berlin'); times on the fleet page are shown in it. */
+  siteTimeZone?: string;
   customerId: number;
   customerName: string;
   controllerSerial: string | null;
@@ -76,6 +99,8 @@ export interface ReadingPoint {
   defrostMin: number;
   doorOpenMin: number;
   samples: number;
+  /** Raw resolution only: the reading's stated reasons (a gap in superheat shows why). */
+  flags?: ReadingFlag[];
 }
 
 export interface ReadingsResponse {

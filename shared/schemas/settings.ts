@@ -1,10 +1,10 @@
 import { z } from 'zod';
-import { COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K } from '../field/superheat';
+import { EVAPORATOR_SUPERHEAT_FLOOR_K } from '../field/superheat';
 import type { ValveType } from '../domain';
 import { ConfigSetPayload, type ConfigAckPayload } from './telemetry';
 
 /**
- * PUT /api/v1/boxes/:id/settings. A superheat target below the compressor-protection minimum is
+ * PUT /api/v1/boxes/:id/settings. A superheat target below the evaporator superheat floor is
  * refused unless `override` carries a reason.
  */
 export const BoxSettingsBody = ConfigSetPayload.omit({ id: true })
@@ -55,7 +55,7 @@ const NOT_REQUESTED = 'Not part of the pending request';
  * refuses: only fields of the pending request are accepted; a named choice (refrigerant, defrost
  * type) only as requested; a setpoint only strictly between the box's low and high limits (°C); a
  * superheat target (K) only on an electronic-valve box and, without an override, not below the
- * compressor-protection minimum. The same checks the request itself passed.
+ * evaporator superheat floor. The same checks the request itself passed.
  */
 export function screenAppliedSettings(requested: RequestedSettings, applied: AppliedSettings, box: AckBoxLimits): AckScreen {
   const accepted: AppliedSettings = {};
@@ -64,7 +64,7 @@ export function screenAppliedSettings(requested: RequestedSettings, applied: App
     const v = applied.superheatTargetK;
     if (requested.superheatTargetK === undefined) refused.superheatTargetK = NOT_REQUESTED;
     else if (box.valveType === 'txv') refused.superheatTargetK = 'Not adjustable on a thermostatic-valve box';
-    else if (v < COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K && !box.overridden) refused.superheatTargetK = 'Below the compressor-protection minimum without an override';
+    else if (v < EVAPORATOR_SUPERHEAT_FLOOR_K && !box.overridden) refused.superheatTargetK = 'Below the evaporator superheat floor without an override';
     else accepted.superheatTargetK = v;
   }
   if (applied.setpointC !== undefined) {

@@ -7,7 +7,11 @@ import type { TelemetryPayload } from '../../shared/schemas/telemetry';
 import { DefrostCycle } from './defrost';
 import {
   DEFAULT_FAULT_THERMISTOR,
+  DRIFT_K_PER_H,
+  DRIFT_MAX_K,
   OPEN_THERMISTOR_C,
+  SENSOR_FAULTS,
+  SEVERE_LEAK_OPEN_FRACTION,
   SHORTED_THERMISTOR_C,
   SHORT_CYCLE_CUTOUT_BELOW_SETPOINT_K,
   SHORT_CYCLE_DIFFERENTIAL_K,
@@ -63,7 +67,8 @@ export class BoxModel {
   readonly events: CompressorEvent[] = [];
   tS = 0;
   call = false;
-  feedOpen = false;
+  /** The controller's liquid feed command (valve or solenoid told to pass liquid). */
+  private feedCommanded = false;
   compressorOn = false;
   fanOn = true;
   defrostOn = false;
@@ -116,9 +121,15 @@ export class BoxModel {
     return { ...this.lp };
   }
 
-  /** Valve opening, fraction of full travel (EEV steps / full steps, or the TXV's lift). */
+  /** Liquid reaches the coil: the feed is commanded open, or a badly leaking seat passes it anyway. */
+  get feedOpen(): boolean {
+    return this.feedCommanded || this.faults.has('valve-leak-through-severe');
+  }
+
+  /** Valve opening as the refrigerant sees it, fraction of full travel (EEV steps / full steps, or the TXV's lift; a badly leaking seat passes at least SEVERE_LEAK_OPEN_FRACTION). */
   get valveFraction(): number {
-    return this.eev ? this.eev.fraction : (this.txv?.fraction ?? 0);
+    const commanded = this.eev ? this.eev.fraction : (this.txv?.fraction ?? 0);
+    return this.faults.has('valve-leak-through-severe') ? Math.max(commanded, SEVERE_LEAK_OPEN_FRACTION) : commanded;
   }
 
   /** EEV position, steps (undefined for a TXV box). */
@@ -139,8 +150,10 @@ export class BoxModel {
   /** Turns a fault on or off; sensor faults take the thermistor they hit (default: suction line). */
   setFault(name: FaultName, on: boolean, sensor?: ThermistorName): void {
     if (on) {
-      const isSensor = name === 'thermistor-open' || name === 'thermistor-shorted';
-      this.faults.set(name, { sinceS: this.tS, sensor: isSensor ? (sensor ?? DEFAULT_FAULT_THERMISTOR) : undefined });
+      const hit = SENSOR_FAULTS.includes(name) ? (sensor ?? DEFAULT_FAULT_THERMISTOR) : undefined;
+      // A stuck sensor keeps the value it read when it stuck.
+      const heldC = name === 'sensor-stuck' && hit ? quantise(this.trueSensorC(hit), 0.1) : undefined;
+      this.faults.set(name, { sinceS: this.tS, sensor: hit, ...(heldC !== undefined ? { heldC } : {}) });
     } else this.faults.delete(name);
     this.refreshDerived();
   }
@@ -170,7 +183,7 @@ export class BoxModel {
     const t = (name: ThermistorName, trueC: number) => {
       const faulted = this.faultedSensorC(name);
       if (faulted !== null) return faulted;
-      return quantise(Math.min(SHORTED_THERMISTOR_C, Math.max(OPEN_THERMISTOR_C, trueC + this.noise.normal(0, this.params.tempNoiseSdK))), 0.1);
+      return quantise(Math.min(SHORTED_THERMISTOR_C, Math.max(OPEN_THERMISTOR_C, trueC + this.driftK(name) + this.noise.normal(0, this.params.tempNoiseSdK))), 0.1);
     };
     const kPa = (trueKPaG: number) => Math.round(trueKPaG + this.noise.normal(0, this.params.pressureNoiseSdKPa)) + 0;
     const out: BoxReading = {
@@ -210,18 +223,18 @@ export class BoxModel {
 
     // Defrost termination and fan delay use the controller's fin probe (coil metal), not the inlet thermistor.
     const d = this.defrost.step(this.tS, this.phys.coilC, this.compressorOn);
-    const minOnHeld = this.feedOpen && this.tS - this.feedOpenSinceS < p.minOnS;
+    const minOnHeld = this.feedCommanded && this.tS - this.feedOpenSinceS < p.minOnS;
     const wantFeed = d.feed === 'open' || (d.feed === 'normal' && (this.call || minOnHeld));
-    if (wantFeed && !this.feedOpen) this.feedOpenSinceS = this.tS;
-    if (!wantFeed && this.feedOpen) this.feedClosedSinceS = this.tS;
-    this.feedOpen = wantFeed;
+    if (wantFeed && !this.feedCommanded) this.feedOpenSinceS = this.tS;
+    if (!wantFeed && this.feedCommanded) this.feedClosedSinceS = this.tS;
+    this.feedCommanded = wantFeed;
 
     const pG = this.suctionKPaG;
     if (this.compressorOn) {
       const pumpDownS = this.tS - Math.max(this.feedClosedSinceS, this.compressorSinceS);
       const bypassed = this.tS - this.compressorSinceS < LP_START_BYPASS_S;
       if (pG <= this.lp.cutOutKPaG && !bypassed) this.switchCompressor(false, pG, 'lp-cutout');
-      else if (!this.feedOpen && pumpDownS > p.pumpDownMaxS) this.switchCompressor(false, pG, 'pumpdown-timeout');
+      else if (!this.feedCommanded && pumpDownS > p.pumpDownMaxS) this.switchCompressor(false, pG, 'pumpdown-timeout');
     } else if (!d.lockout && pG >= this.lp.cutInKPaG && this.tS - this.compressorSinceS >= p.minOffS && this.valveReady()) {
       this.switchCompressor(true, pG);
     }
@@ -235,19 +248,19 @@ export class BoxModel {
 
   /** An EEV controller starts the compressor only once the valve has reached its start opening. */
   private valveReady(): boolean {
-    return !this.eev || !this.feedOpen || this.eev.fraction >= 0.95 * this.params.eevStartFraction;
+    return !this.eev || !this.feedCommanded || this.eev.fraction >= 0.95 * this.params.eevStartFraction;
   }
 
   private driveValve(dtS: number): void {
     if (this.txv) {
-      this.txv.update(dtS, this.phys.suctionLineC, this.fluid.dewC(this.phys.suctionKPaAbs), this.feedOpen);
+      this.txv.update(dtS, this.phys.suctionLineC, this.fluid.dewC(this.phys.suctionKPaAbs), this.feedCommanded);
       return;
     }
     if (!this.eev) return;
     const p = this.params;
     let mode: EevMode;
     const lineC = this.sensedC('suctionLineC', this.phys.suctionLineC);
-    if (!this.feedOpen) mode = { kind: 'closed' };
+    if (!this.feedCommanded) mode = { kind: 'closed' };
     else if (!this.compressorOn || this.tS - this.compressorSinceS < p.eevStartHoldS) mode = { kind: 'hold', fraction: p.eevStartFraction };
     else if (lineC === null) mode = { kind: 'hold', fraction: p.eevFallbackFraction };
     else mode = { kind: 'pi', superheatK: lineC - this.fluid.dewC(this.phys.suctionKPaAbs), targetK: p.superheatTargetK };
@@ -274,14 +287,40 @@ export class BoxModel {
 
   /** What the controller reads from a thermistor, °C; null when off-scale (failed). */
   private sensedC(name: ThermistorName, trueC: number): number | null {
-    const v = this.faultedSensorC(name) ?? trueC;
+    const v = this.faultedSensorC(name) ?? trueC + this.driftK(name);
     return v <= SENSOR_FAILED_BELOW_C || v >= SENSOR_FAILED_ABOVE_C ? null : v;
   }
 
   private faultedSensorC(name: ThermistorName): number | null {
     if (this.faults.get('thermistor-open')?.sensor === name) return OPEN_THERMISTOR_C;
     if (this.faults.get('thermistor-shorted')?.sensor === name) return SHORTED_THERMISTOR_C;
+    const stuck = this.faults.get('sensor-stuck');
+    if (stuck?.sensor === name && stuck.heldC !== undefined) return stuck.heldC;
     return null;
+  }
+
+  /** How far a drifting thermistor reads above the truth now, K (0 for the others). */
+  private driftK(name: ThermistorName): number {
+    const drift = this.faults.get('sensor-drift');
+    if (drift?.sensor !== name) return 0;
+    return Math.min(DRIFT_MAX_K, (DRIFT_K_PER_H * (this.tS - drift.sinceS)) / 3600);
+  }
+
+  /** The true temperature at a thermistor's place, °C. */
+  private trueSensorC(name: ThermistorName): number {
+    const p = this.phys;
+    switch (name) {
+      case 'boxAirC':
+        return p.airC;
+      case 'suctionLineC':
+        return p.suctionLineC;
+      case 'coilInletC':
+        return p.coilInletC;
+      case 'dischargeAirC':
+        return p.dischargeAirC(this.fansMoveAir());
+      case 'liquidLineC':
+        return p.liquidLineC;
+    }
   }
 
   private refreshDerived(): void {

@@ -22,6 +22,17 @@ export const ICED_COIL_BLOCKED_FRACTION = 0.95;
 export const ICED_COIL_BUILD_S = 7200;
 /** Liquid passing a closed valve seat, as a fraction of compressor capacity. */
 export const LEAK_THROUGH_FRACTION = 0.1;
+/**
+ * A badly leaking valve or solenoid: the closed seat passes as much as the valve open this far
+ * (fraction of full travel; our choice). That feed keeps the low side near its running pressure, so
+ * a pump-down never reaches the low-pressure cut-out and ends on its time limit.
+ */
+export const SEVERE_LEAK_OPEN_FRACTION = 0.4;
+/** A drifting thermistor reads this much higher each hour after the fault began, K/h, up to DRIFT_MAX_K (our choice: fast enough to see in a demo). */
+export const DRIFT_K_PER_H = 0.5;
+export const DRIFT_MAX_K = 8;
+/** Faults that hit one chosen thermistor. */
+export const SENSOR_FAULTS: readonly FaultName[] = ['thermistor-open', 'thermistor-shorted', 'sensor-stuck', 'sensor-drift'];
 /** A door left ajar passes this fraction of the air of a fully open door. */
 export const DOOR_AJAR_FRACTION = 0.6;
 /** Short cycling: the low-pressure control set so tight that it opens within a minute of each start. */
@@ -33,4 +44,6 @@ export const SHORT_CYCLE_DIFFERENTIAL_K = 0.3;
 export interface ActiveFault {
   sinceS: number;
   sensor?: ThermistorName;
+  /** sensor-stuck: the value the thermistor keeps reporting, °C (what it read when the fault began). */
+  heldC?: number;
 }

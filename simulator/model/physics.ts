@@ -208,10 +208,15 @@ export function stepPhysics(
     s.productC += share * (s.airC + delivery.warmK - s.productC);
   }
 
-  // Liquid line: condensing above ambient while running, settling to ambient when stopped.
+  // Liquid line: condensing above ambient while running, settling to ambient when stopped. An
+  // air-cooled condenser keeps roughly its temperature difference as the air warms, so a 40 °C day
+  // gives about 52 °C condensing (common practice: 10-15 K over ambient). The tables now reach a few K
+  // below the critical point (≥ 66 °C for every refrigerant the model runs), so hot-day heads are
+  // modelled as they are; only beyond the table end is the head held there (a real system would be at
+  // its high-pressure cut-out by then).
   const condTargetC = box.compressorOn ? s.ambientC + p.condensingAboveAmbientK : s.ambientC + 1;
   s.condensingC = lag(s.condensingC, condTargetC, dtS, TAU.condensing);
-  const condC = Math.min(s.condensingC, fluid.maxC - 0.5);
+  const condC = Math.min(s.condensingC, fluid.maxC);
   s.liquidKPaAbs = fluid.bubbleKPaAbs(condC);
   const subcoolK = lowCharge ? LOW_CHARGE_SUBCOOLING_K : p.subcoolingK;
   s.liquidLineC = lag(s.liquidLineC, box.compressorOn ? condC - subcoolK : s.ambientC, dtS, TAU.liquidLine);

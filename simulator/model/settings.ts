@@ -29,7 +29,11 @@ export function checkSettings(model: BoxModel, req: SettingsRequest): SettingsRe
   }
   const merged: BoxSettings = { ...p, ...next };
   const info = getRefrigerant(merged.refrigerant);
-  if (merged.refrigerant === 'R-744') return { ok: false, error: 'R-744 (transcritical) systems are not simulated' };
+  // The model is a subcritical direct-expansion system with its own condensing unit: it has no gas
+  // cooler, flash tank or cascade, so an R-744 box would be a fake. Refused, and none is seeded.
+  if (merged.refrigerant === 'R-744') {
+    return { ok: false, error: 'R-744 (CO₂) systems are not simulated: the model has no gas cooler, flash tank or cascade' };
+  }
   if (merged.setpointC - EVAPORATING_MARGIN_K < info.validRange.minC) {
     return { ok: false, error: `${merged.refrigerant}: setpoint ${merged.setpointC} °C is too cold for its saturation tables` };
   }

@@ -49,9 +49,24 @@ export const FAULT_WORDS: Readonly<Record<FaultName, FaultWords>> = {
     hint: 'The chosen sensor reads off the top of its scale; the controller falls back as for an open sensor.',
     needsSensor: true,
   },
+  'sensor-stuck': {
+    label: 'Sensor stuck',
+    hint: 'The chosen sensor keeps reporting the value it had when the fault began, while the system around it keeps cycling.',
+    needsSensor: true,
+  },
+  'sensor-drift': {
+    label: 'Sensor drifting',
+    hint: 'The chosen sensor reads higher and higher than the truth (0.5 K more each hour, up to 8 K); the controller acts on the wrong figure.',
+    needsSensor: true,
+  },
   'valve-leak-through': {
     label: 'Valve passes when closed',
     hint: 'Suction pressure climbs quickly after the compressor stops and it restarts on pressure with no call for cooling: many starts.',
+    needsSensor: false,
+  },
+  'valve-leak-through-severe': {
+    label: 'Valve passes badly when closed',
+    hint: 'Liquid keeps feeding the coil when the valve should be shut: pump-down never reaches the low-pressure cut-out and ends on its time limit every time.',
     needsSensor: false,
   },
   'short-cycling': {

@@ -38,6 +38,7 @@ export const NAV: NavGroup[] = [
       { name: 'customers', label: 'Customers', icon: 'customers', roles: ['admin', 'technician'] },
       { name: 'sites', label: 'Sites', icon: 'sites', roles: ['admin', 'technician'] },
       { name: 'boxes', label: 'Boxes', icon: 'boxes', roles: ['admin', 'technician'] },
+      { name: 'import', label: 'Import', icon: 'plus', roles: ['admin'] },
     ],
   },
   {
@@ -46,6 +47,7 @@ export const NAV: NavGroup[] = [
       { name: 'users', label: 'Users', icon: 'users', roles: ['admin'] },
       { name: 'controllers', label: 'Controllers', icon: 'controller', roles: ['admin'] },
       { name: 'mailbox', label: 'Dev mailbox', icon: 'mail', roles: ['admin'], feature: 'devMailbox' },
+      { name: 'push-inbox', label: 'Push inbox', icon: 'bell', roles: ['admin'], feature: 'pushInbox' },
     ],
   },
 ];

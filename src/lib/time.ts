@@ -25,3 +25,31 @@ export function dateTimeText(iso: string | null | undefined, timeZone?: string):
   if (Number.isNaN(d.getTime())) return '—';
   return d.toLocaleString(undefined, { dateStyle: 'medium', timeStyle: 'short', timeZone });
 }
+
+/** Intl formatters are costly to build (tens of µs); one per zone and style is kept. */
+const siteFormatters = new Map<string, Intl.DateTimeFormat>();
+function siteFormatter(timeZone: string, withDate: boolean): Intl.DateTimeFormat {
+  const key = `${timeZone}|${withDate ? 'd' : 't'}`;
+  let f = siteFormatters.get(key);
+  if (!f) {
+    try {
+      f = new Intl.DateTimeFormat(undefined, { timeZone, hour: '2-digit', minute: '2-digit', timeZoneName: 'short', ...(withDate ? { day: 'numeric', month: 'short' } : {}) });
+    } catch {
+      // An unknown zone name: show UTC, which the zone label then says.
+      f = new Intl.DateTimeFormat(undefined, { timeZone: 'UTC', hour: '2-digit', minute: '2-digit', timeZoneName: 'short', ...(withDate ? { day: 'numeric', month: 'short' } : {}) });
+    }
+    siteFormatters.set(key, f);
+  }
+  return f;
+}
+
+/**
+ * A time in the site's own zone with the zone shown ("14:05 CET"), with the date when it is not
+ * within the last 20 hours; '—' when missing. `timeZone` is an IANA name (UTC when absent).
+ */
+export function siteTimeText(iso: string | null | undefined, timeZone: string | null | undefined, nowMs: number = Date.now()): string {
+  if (!iso) return '—';
+  const t = Date.parse(iso);
+  if (Number.isNaN(t)) return '—';
+  return siteFormatter(timeZone || 'UTC', Math.abs(nowMs - t) > 20 * 3_600_000).format(t);
+}

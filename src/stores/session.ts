@@ -12,7 +12,7 @@ export const NO_FEATURES: Readonly<ServerFeatures> = Object.freeze({ demoMode: f
 
 /** Reads the server's features strictly: only a literal `true` turns a feature on. */
 export function readFeatures(f: Partial<ServerFeatures> | null | undefined): ServerFeatures {
-  return { demoMode: f?.demoMode === true, devMailbox: f?.devMailbox === true };
+  return { demoMode: f?.demoMode === true, devMailbox: f?.devMailbox === true, ...(f?.pushInbox === true ? { pushInbox: true } : {}) };
 }
 
 /** The signed-in user, the CSRF token, the server's features and role helpers. */
@@ -35,6 +35,8 @@ export const useSessionStore = defineStore('session', () => {
   const unitSystem = computed<UnitSystemPref>(() => user.value?.unitSystem ?? 'imperial');
   /** Admins see the dev mailbox only when the server captures mail (SMTP_FAKE). */
   const showDevMailbox = computed(() => isAdmin.value && features.value.devMailbox);
+  /** Admins see the push inbox only when the server runs the fake push service (PUSH_FAKE). */
+  const showPushInbox = computed(() => isAdmin.value && features.value.pushInbox === true);
   /** Admins may inject simulated faults only when the server runs in demo mode. */
   const canInjectFaults = computed(() => isAdmin.value && features.value.demoMode);
 
@@ -131,6 +133,7 @@ export const useSessionStore = defineStore('session', () => {
     canChangeSettings,
     unitSystem,
     showDevMailbox,
+    showPushInbox,
     canInjectFaults,
     hasRole,
     apply,

@@ -39,7 +39,7 @@ const PRIMARY = ['nav-fleet', 'nav-alarms', 'nav-tool-pt', 'nav-tool-superheat']
 const SECONDARY: Record<Role, string[]> = {
   manager: [],
   technician: ['Customers', 'Sites', 'Boxes'],
-  admin: ['Customers', 'Sites', 'Boxes', 'Users', 'Controllers', 'Dev mailbox'],
+  admin: ['Customers', 'Sites', 'Boxes', 'Import', 'Users', 'Controllers', 'Dev mailbox', 'Push inbox'],
 };
 const SECONDARY_TEST_IDS: Record<string, string> = {
   Customers: 'nav-customers',
@@ -48,6 +48,8 @@ const SECONDARY_TEST_IDS: Record<string, string> = {
   Users: 'nav-users',
   Controllers: 'nav-controllers',
   'Dev mailbox': 'nav-mailbox',
+  Import: 'nav-import',
+  'Push inbox': 'nav-push-inbox',
 };
 
 async function navTestIds(page: Page): Promise<string[]> {

@@ -68,9 +68,15 @@ describe('PressureTemperatureView', () => {
 
   it('shows the engine error for out-of-range input, never NaN', async () => {
     const w = await open(PressureTemperatureView, '/tools/pressure-temperature', { refrigerant: 'R-134a' });
-    await w.find('[data-test="pt-pressure"]').setValue('9000');
+    // −14 psig ≈ 0.7 psia (4.8 kPa abs): below R-134a's −60 °C table end (15.9 kPa abs, CoolProp 8.0.0).
+    await w.find('[data-test="pt-pressure"]').setValue('-14');
     await flushPromises();
     expect(testText(w, 'pt-error')).toMatch(/outside the valid range/);
+    expect(testText(w, 'pt-dew')).toBe('—');
+    // 9,000 psig is above R-134a's critical pressure (4,059 kPa abs, CoolProp 8.0.0): said as supercritical.
+    await w.find('[data-test="pt-pressure"]').setValue('9000');
+    await flushPromises();
+    expect(testText(w, 'pt-error')).toMatch(/^Supercritical/);
     expect(testText(w, 'pt-dew')).toBe('—');
     expect(w.html()).not.toContain('NaN');
     await w.find('[data-test="pt-pressure"]').setValue('abc');
@@ -110,11 +116,48 @@ describe('SuperheatView', () => {
     expect(w.text()).toContain('not a diagnosis');
   });
 
-  it('says low, and warns about the compressor, for a small superheat', async () => {
+  it('says low, and names the evaporator superheat floor, for a small superheat', async () => {
     const w = await superheat('2');
     expect(testText(w, 'sh-verdict')).toMatch(/^Low/);
-    // COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K is 5 °F (common practice, shared/field/superheat.ts).
-    expect(testText(w, 'sh-verdict')).toMatch(/protect the compressor/);
+    // EVAPORATOR_SUPERHEAT_FLOOR_K is 5 °F (common practice, shared/field/superheat.ts): an evaporator floor, not a compressor rating.
+    expect(testText(w, 'sh-verdict')).toMatch(/5\.0 °F evaporator superheat floor/);
+    expect(testText(w, 'sh-verdict')).not.toMatch(/protect the compressor/);
+  });
+
+  it('says supercritical for an R-744 high side above its 1,055 psig critical pressure and shows the gas-cooler outlet and approach', async () => {
+    // CoolProp 8.0.0 / NIST WebBook: CO₂ critical pressure 7,377.3 kPa abs = 1,055.3 psig at sea level (TRADE-NOTES #29: ~1,055 psig).
+    const w = await open(SuperheatView, '/tools/superheat', { refrigerant: 'R-744' });
+    await w.find('[data-test="sc-liquid-pressure"]').setValue('1305'); // about 90 bar: a warm-day gas cooler (common practice)
+    await w.find('[data-test="sc-liquid-line"]').setValue('95');
+    await w.find('[data-test="sc-gas-cooler-air"]').setValue('90');
+    await flushPromises();
+    expect(testText(w, 'sc-supercritical')).toMatch(/^Supercritical/);
+    expect(testText(w, 'sc-supercritical')).toContain('no subcooling');
+    expect(testText(w, 'sc-gas-cooler-outlet')).toBe('95.0 °F');
+    expect(testText(w, 'sc-approach')).toBe('5.0 °F'); // approach = outlet − entering air (common practice)
+    expect(w.find('[data-test="sc-result"]').exists()).toBe(false);
+    expect(w.html()).not.toContain('NaN');
+  });
+
+  it('gives R-744 subcooling just below the critical point, at 30 °C', async () => {
+    // CoolProp 8.0.0 HEOS::CarbonDioxide: 30 °C saturation 7,213.7 kPa abs = 1,031.6 psig at sea level;
+    // liquid at 80.6 °F (27 °C) → 3 K = 5.4 °F of subcooling.
+    const w = await open(SuperheatView, '/tools/superheat', { refrigerant: 'R-744' });
+    await w.find('[data-test="sc-liquid-pressure"]').setValue('1031.6');
+    await w.find('[data-test="sc-liquid-line"]').setValue('80.6');
+    await flushPromises();
+    expect(testText(w, 'sc-result')).toBe('5.4 °F');
+    expect(w.find('[data-test="sc-supercritical"]').exists()).toBe(false);
+  });
+
+  it('gives R-404A subcooling at a 55 °C (131 °F) hot-day head', async () => {
+    // CoolProp 8.0.0 HEOS::R404A.mix: 55 °C bubble point 2,585.1 kPa abs = 360.2 psig at sea level;
+    // liquid at 122 °F (50 °C) → 5 K = 9.0 °F of subcooling (±0.1 °F for the rounded pressure).
+    const w = await open(SuperheatView, '/tools/superheat', { refrigerant: 'R-404A' });
+    await w.find('[data-test="sc-liquid-pressure"]').setValue('360.2');
+    await w.find('[data-test="sc-liquid-line"]').setValue('122');
+    await flushPromises();
+    expect(Math.abs(firstNumber(testText(w, 'sc-result')) - 9)).toBeLessThanOrEqual(0.1);
   });
 
   it('says high for a large superheat', async () => {

@@ -34,7 +34,7 @@ describe('POST /api/v1/controllers', () => {
     expectStatus(res, 201);
     // 32 random bytes in base64url are 43 characters (server/controllers/secrets.ts).
     expect(res.body.deviceSecret).toMatch(/^[A-Za-z0-9_-]{43}$/);
-    expect(res.body.controller).toEqual({ id: expect.any(Number), serial: s, valveFullSteps: 1600, firmware: '2.1.0', lastSeenAt: null, online: false, disabled: false });
+    expect(res.body.controller).toEqual({ id: expect.any(Number), serial: s, valveFullSteps: 1600, firmware: '2.1.0', gaugeReference: 'vented-gauge', lastSeenAt: null, online: false, disabled: false });
     const row = await srv.ctx.models.Controller.findByPk(res.body.controller.id);
     expect(row?.boxId).toBe(box.id);
     expect(row?.secretHash).not.toBe(res.body.deviceSecret);

@@ -2,7 +2,7 @@ import net from 'node:net';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import WebSocket from 'ws';
 import type { RunningServer } from '../../server/main';
-import { COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K, deltaFToDeltaK } from '../../shared/field';
+import { EVAPORATOR_SUPERHEAT_FLOOR_K, deltaFToDeltaK } from '../../shared/field';
 import { ConfigSetPayload, topics } from '../../shared/schemas/telemetry';
 import type { LiveEvent } from '../../shared/schemas/live';
 import { factories, signIn } from './helpers/app';
@@ -59,9 +59,9 @@ describe('PUT /api/v1/boxes/:id/settings', () => {
     await ctl.endAsync();
   });
 
-  it('refuses a superheat target below the compressor-protection minimum unless overridden with a reason', async () => {
+  it('refuses a superheat target below the evaporator superheat floor (common practice) unless overridden with a reason', async () => {
     // Common practice: technicians keep superheat at or above about 5 °F (2.78 K) so liquid does not reach the compressor.
-    expect(COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K).toBeCloseTo(deltaFToDeltaK(5), 12);
+    expect(EVAPORATOR_SUPERHEAT_FLOOR_K).toBeCloseTo(deltaFToDeltaK(5), 12);
     const p = await provisionBox(srv);
     const admin = await f.user('admin');
     const { agent, csrf } = await signIn(srv, admin.email, admin.password);

@@ -1,7 +1,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { MqttClient } from 'mqtt';
 import type { RunningServer } from '../../server/main';
-import { COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K } from '../../shared/field';
+import { EVAPORATOR_SUPERHEAT_FLOOR_K } from '../../shared/field';
 import { screenAppliedSettings } from '../../shared/schemas/settings';
 import { ConfigSetPayload, topics } from '../../shared/schemas/telemetry';
 import { factories, signIn } from './helpers/app';
@@ -106,9 +106,9 @@ describe('screenAppliedSettings', () => {
     expect(Object.keys(s.refused).sort()).toEqual(['defrost.defrostType', 'defrost.dripMin']);
   });
 
-  it('refuses a superheat target below the compressor-protection minimum unless the request was overridden', () => {
+  it('refuses a superheat target below the evaporator superheat floor (common practice) unless the request was overridden', () => {
     // Common practice: about 5 °F (2.78 K) of superheat is kept so liquid does not reach the compressor.
-    const low = COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K - 0.5;
+    const low = EVAPORATOR_SUPERHEAT_FLOOR_K - 0.5;
     expect(screenAppliedSettings({ superheatTargetK: 3.3 }, { superheatTargetK: low }, cooler).refused).toHaveProperty('superheatTargetK');
     expect(screenAppliedSettings({ superheatTargetK: low }, { superheatTargetK: low }, { ...cooler, overridden: true }).accepted).toEqual({ superheatTargetK: low });
   });

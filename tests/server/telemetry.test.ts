@@ -38,7 +38,8 @@ describe('telemetry ingest', () => {
     await waitFor(async () => (await storedRows(srv, p.box.id)).length === 1);
     await p.box.update({ refrigerant: 'R-134a' });
     srv.ctx.bus.emit('boxChanged', { boxId: p.box.id });
-    await publishTelemetry(c, p.serial, reading({ ts: new Date(t0 + 1000).toISOString(), suctionKPaG: 300 }));
+    // Taken after the change (a reading from before it keeps the old refrigerant: reading-quality.test.ts).
+    await publishTelemetry(c, p.serial, reading({ ts: new Date().toISOString(), suctionKPaG: 300 }));
     const rows = await waitFor(async () => {
       const rs = await storedRows(srv, p.box.id);
       return rs.length === 2 ? rs : null;

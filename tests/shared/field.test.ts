@@ -1,6 +1,7 @@
+import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import {
-  COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K,
+  EVAPORATOR_SUPERHEAT_FLOOR_K,
   SEA_LEVEL_PRESSURE_KPA,
   absoluteToGaugeKPa,
   atmosphericPressureKPa,
@@ -13,7 +14,10 @@ import {
   formatPressureGauge,
   formatTemperature,
   formatTemperatureDelta,
+  gasCoolerApproachK,
   gaugeToAbsoluteKPa,
+  describeSupercriticalHighSide,
+  highSideReading,
   judgeSuperheat,
   kPaToBar,
   kPaToPsi,
@@ -27,9 +31,20 @@ import {
   superheatByThermistorsK,
   valvePercent,
 } from '../../shared/field/index';
-import { RefrigerantRangeError, saturationTemperature } from '../../shared/refrigerants/index';
+import { RefrigerantRangeError, SupercriticalError, saturationTemperature } from '../../shared/refrigerants/index';
 
 const FT = 0.3048; // m per ft, exact by definition (NIST SP 811)
+
+interface HotDayPoint {
+  temperatureC: number;
+  pressureKPaAbs: number;
+}
+// Source: CoolProp 8.0.0 bubble-point pressures at 55 and 60 °C, computed by scripts/gen_refrigerants.py.
+const hotDay = (
+  JSON.parse(readFileSync(new URL('./fixtures/refrigerant-reference.json', import.meta.url), 'utf8')) as {
+    refrigerants: Record<string, { hotDayBubble?: HotDayPoint[] }>;
+  }
+).refrigerants;
 
 describe('units', () => {
   it('converts absolute temperatures', () => {
@@ -93,12 +108,13 @@ describe('atmospheric pressure and gauge readings', () => {
     expect(atmosphericPressureKPa(0)).toBe(SEA_LEVEL_PRESSURE_KPA);
     // US Standard Atmosphere 1976 table: about 83.5 kPa at 1,600 m (from memory).
     expect(Math.abs(atmosphericPressureKPa(1600) - 83.5)).toBeLessThan(0.1);
-    // Altitude table (lemon-manuals; hvacrschool), TRADE-NOTES #24: 12.2 psia at 5,000 ft, 11.7 psia at 6,000 ft (to 0.1 psi).
+    // Altitude table (lemon-manuals; hvacrschool), TRADE-NOTES #24: 12.2 psia at 5,000 ft (to 0.1 psi).
     expect(Math.abs(kPaToPsi(atmosphericPressureKPa(5000 * FT)) - 12.2)).toBeLessThanOrEqual(0.1);
-    expect(Math.abs(kPaToPsi(atmosphericPressureKPa(6000 * FT)) - 11.7)).toBeLessThanOrEqual(0.1);
+    // U.S. Standard Atmosphere 1976 (TRADE-NOTES #24): 11.78 psia at 6,000 ft, given to 0.01 psi.
+    expect(Math.abs(kPaToPsi(atmosphericPressureKPa(6000 * FT)) - 11.78)).toBeLessThanOrEqual(0.005);
   });
 
-  it('converts between gauge and absolute pressure at a site', () => {
+  it('converts between gauge and absolute pressure at a site (and back: a round trip)', () => {
     // Standard sea-level atmosphere 101.325 kPa (ICAO / US Standard Atmosphere 1976).
     expect(gaugeToAbsoluteKPa(100, 0)).toBeCloseTo(201.325, 9);
     expect(absoluteToGaugeKPa(gaugeToAbsoluteKPa(137.9, 1600), 1600)).toBeCloseTo(137.9, 9);
@@ -116,7 +132,7 @@ describe('atmospheric pressure and gauge readings', () => {
 });
 
 describe('superheat and subcooling', () => {
-  it('gives superheat as suction-line temperature minus saturated suction (dew) temperature', () => {
+  it('wires superheat as suction-line temperature minus the engine\'s dew point at the absolute suction pressure', () => {
     // common practice: superheat = suction-line temperature − saturated suction temperature (dew point for blends).
     const r = superheatByPressureK({ refrigerant: 'R-448A', suctionKPaG: 150, suctionLineC: -20, elevationM: 0 });
     expect(r.saturatedSuctionC).toBe(saturationTemperature('R-448A', 150 + 101.325, 'dew'));
@@ -166,7 +182,8 @@ describe('superheat and subcooling', () => {
     const blend = superheatByThermistorsK({ refrigerant: 'R-407C', suctionLineC: 8, coilInletC: 2 });
     expect(blend.superheatK).toBe(6);
     expect(blend.glideWarning).toBe(true);
-    expect(blend.glideK).toBeGreaterThan(4);
+    // CoolProp 8.0.0 HEOS::R407C.mix: bubble point 2 °C at 605.7 kPa abs, where the dew point is 8.08 °C: glide 6.08 K.
+    expect(Math.abs(blend.glideK - 6.08)).toBeLessThanOrEqual(0.01);
     expect(blend.note).toContain('overstate');
     // At the pressure whose bubble point is the inlet reading, the pressure method gives exactly glideK less.
     const p = superheatByPressureK({
@@ -180,6 +197,25 @@ describe('superheat and subcooling', () => {
     expect(pure.glideWarning).toBe(false);
     expect(pure.glideK).toBeLessThan(0.01);
     expect(pure.note).toBeNull();
+  });
+
+  it('gives subcooling at 55 and 60 °C hot-day condensing for R-404A, R-448A and R-134a', () => {
+    // CoolProp 8.0.0 bubble-point pressures (fixture); a liquid line 5 K below the bubble point is 5 K of subcooling.
+    for (const id of ['R-404A', 'R-448A', 'R-134a'] as const) {
+      const points = hotDay[id]?.hotDayBubble ?? [];
+      expect(points.map((p) => p.temperatureC), id).toEqual([55, 60]);
+      for (const { temperatureC, pressureKPaAbs } of points) {
+        const sc = subcoolingK({
+          refrigerant: id,
+          liquidKPaG: pressureKPaAbs - SEA_LEVEL_PRESSURE_KPA,
+          liquidLineC: temperatureC - 5,
+          elevationM: 0,
+        });
+        expect(Math.abs(sc - 5), `${id} at ${temperatureC} °C`).toBeLessThanOrEqual(0.01);
+      }
+    }
+    // CoolProp 8.0.0 HEOS::R404A.mix: 55 °C bubble = 2,585.1 kPa abs = 360.2 psig, above the old 320 psig table end.
+    expect(Math.abs(kPaToPsi(2585.1234 - SEA_LEVEL_PRESSURE_KPA) - 360.2)).toBeLessThanOrEqual(0.05);
   });
 
   it('passes range errors through instead of returning NaN', () => {
@@ -207,6 +243,46 @@ function pressureAtBubble(c: number): number {
   return 0.5 * (lo + hi);
 }
 
+describe('transcritical R-744 high side', () => {
+  // CoolProp 8.0.0 / NIST WebBook: CO₂ critical pressure 7,377.3 kPa abs (30.978 °C).
+  it('says supercritical above the critical pressure and gives the gas-cooler outlet and approach instead of subcooling', () => {
+    // 9,000 kPa(g) at sea level: a warm-day gas-cooler pressure (about 90 bar; common practice).
+    const r = highSideReading({ refrigerant: 'R-744', highSideKPaG: 9000, outletC: 35, ambientC: 32, elevationM: 0 });
+    expect(r.state).toBe('supercritical');
+    if (r.state !== 'supercritical') return;
+    expect(r.gasCoolerOutletC).toBe(35);
+    expect(r.approachK).toBeCloseTo(3, 12); // approach = outlet − entering air (common practice)
+    expect(r.criticalKPaAbs).toBeCloseTo(7377.3, 1);
+    expect(describeSupercriticalHighSide(r, 'metric-bar')).toContain('no subcooling');
+    expect(describeSupercriticalHighSide(r, 'imperial')).toContain('5.4 °F'); // 3 K = 5.4 °F (NIST SP 811)
+    const noAir = highSideReading({ refrigerant: 'R-744', highSideKPaG: 9000, outletC: 35, ambientC: null, elevationM: 0 });
+    expect(noAir.state === 'supercritical' && noAir.approachK === null).toBe(true);
+    // Subcooling itself refuses with the distinct supercritical error, not the generic range error.
+    expect(() => subcoolingK({ refrigerant: 'R-744', liquidKPaG: 9000, liquidLineC: 35, elevationM: 0 })).toThrow(SupercriticalError);
+    expect(gasCoolerApproachK(36.5, 33)).toBeCloseTo(3.5, 12);
+  });
+
+  it('gives subcooling for R-744 below the critical point, at 29–30 °C', () => {
+    // CoolProp 8.0.0 HEOS::CarbonDioxide: 30 °C saturation 7,213.7 kPa abs; liquid at 27 °C → 3 K subcooling.
+    const r = highSideReading({ refrigerant: 'R-744', highSideKPaG: 7213.7 - SEA_LEVEL_PRESSURE_KPA, outletC: 27, ambientC: 25, elevationM: 0 });
+    expect(r.state).toBe('subcritical');
+    if (r.state !== 'subcritical') return;
+    expect(Math.abs(r.subcoolingK - 3)).toBeLessThanOrEqual(0.01);
+    // CoolProp 8.0.0: 29 °C saturation 7,050.9 kPa abs.
+    const sc = subcoolingK({ refrigerant: 'R-744', liquidKPaG: 7050.9 - SEA_LEVEL_PRESSURE_KPA, liquidLineC: 25, elevationM: 0 });
+    expect(Math.abs(sc - 4)).toBeLessThanOrEqual(0.01);
+  });
+
+  it('treats a blend above its tables as out of range, never supercritical', () => {
+    expect(() => highSideReading({ refrigerant: 'R-404A', highSideKPaG: 1e5, outletC: 40, ambientC: 35, elevationM: 0 })).toThrow(
+      RefrigerantRangeError,
+    );
+    const r = highSideReading({ refrigerant: 'R-404A', highSideKPaG: 2585.1234 - SEA_LEVEL_PRESSURE_KPA, outletC: 50, ambientC: 35, elevationM: 0 });
+    // CoolProp 8.0.0 HEOS::R404A.mix: 55 °C bubble point at 2,585.1 kPa abs → 5 K subcooling at a 50 °C liquid line.
+    expect(r.state === 'subcritical' && Math.abs(r.subcoolingK - 5) <= 0.01).toBe(true);
+  });
+});
+
 describe('valve position', () => {
   it('reports percent open from steps', () => {
     // common practice: % open = steps ÷ full-travel steps; 800 of 1,600 steps is 50 %.
@@ -224,20 +300,21 @@ describe('valve position', () => {
 });
 
 describe('superheat judgement', () => {
-  it('sets the compressor-protection minimum at 5 °F', () => {
-    // common practice: technicians avoid running superheat below about 5 °F (2.78 K) to keep liquid from the compressor.
-    expect(COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K).toBeCloseTo(2.78, 2);
+  it('sets the evaporator superheat floor at 5 °F', () => {
+    // common practice: technicians keep evaporator superheat above about 5 °F (2.78 K) so liquid does not leave the coil.
+    expect(EVAPORATOR_SUPERHEAT_FLOOR_K).toBeCloseTo(2.78, 2);
   });
 
   it('says low, in band or high in plain words', () => {
     const low = judgeSuperheat(2, 5, 1);
     expect(low.verdict).toBe('low');
-    expect(low.belowCompressorProtection).toBe(true);
+    expect(low.belowSuperheatFloor).toBe(true);
     expect(low.message).toContain('below the target band of 4.0 K to 6.0 K');
-    expect(low.message).toContain('compressor');
+    expect(low.message).toContain('evaporator superheat floor');
+    expect(low.message).not.toMatch(/protect the compressor/);
     const ok = judgeSuperheat(5.5, 5, 1);
     expect(ok.verdict).toBe('in-band');
-    expect(ok.belowCompressorProtection).toBe(false);
+    expect(ok.belowSuperheatFloor).toBe(false);
     const edge = judgeSuperheat(6, 5, 1);
     expect(edge.verdict).toBe('in-band');
     const high = judgeSuperheat(9, 5, 1, 'imperial');

@@ -132,9 +132,16 @@ describe('published check values', () => {
     expect(Math.abs(cToF(saturationTemperature('R-407C', p, 'bubble')) - 40.0)).toBeLessThanOrEqual(0.3);
     expect(Math.abs(cToF(saturationTemperature('R-407C', p, 'dew')) - 50.8)).toBeLessThanOrEqual(0.3);
     expect(Math.abs(glideAtPressureK('R-407C', p) * 1.8 - 10.8)).toBeLessThanOrEqual(0.3);
-    // TRADE-NOTES #22 also quotes "at 0 °C: dew 87.5 psig, bubble 69.5 psig"; a dew pressure above the
-    // bubble pressure at one temperature is impossible for a zeotrope, so that row is not asserted.
-    expect(saturationPressure('R-407C', 0, 'bubble')).toBeGreaterThan(saturationPressure('R-407C', 0, 'dew'));
+  });
+
+  it('matches R-407C dew and bubble pressures at 0 °C', () => {
+    // CoolProp 8.0.0 HEOS::R407C.mix (TRADE-NOTES #22, corrected row): at 0 °C dew 52.1 psig (460.7 kPa abs),
+    // bubble 67.7 psig (567.9 kPa abs) at sea level; figures given to 0.1 psi, so ±0.1 psi.
+    expect(Math.abs(kPaAbsToPsig(saturationPressure('R-407C', 0, 'dew')) - 52.1)).toBeLessThanOrEqual(0.1);
+    expect(Math.abs(kPaAbsToPsig(saturationPressure('R-407C', 0, 'bubble')) - 67.7)).toBeLessThanOrEqual(0.1);
+    // Same source in kPa abs, given to 0.1 kPa.
+    expect(Math.abs(saturationPressure('R-407C', 0, 'dew') - 460.7)).toBeLessThanOrEqual(0.1);
+    expect(Math.abs(saturationPressure('R-407C', 0, 'bubble') - 567.9)).toBeLessThanOrEqual(0.1);
   });
 
   it('matches R-407A bubble and dew points at 1 atm', () => {
@@ -143,7 +150,7 @@ describe('published check values', () => {
     expect(Math.abs(cToF(saturationTemperature('R-407A', 101.325, 'dew')) - -37.5)).toBeLessThanOrEqual(0.3);
   });
 
-  it('matches the CO₂ triple point and stops below the critical point', () => {
+  it('matches the CO₂ triple point and reaches up to its critical point', () => {
     // r744.com, TRADE-NOTES #29: triple point −56.6 °C at 60.4 psig (±0.3 psi).
     const info = getRefrigerant('R-744');
     expect(info.validRange.minC).toBeGreaterThanOrEqual(-56.6);
@@ -151,8 +158,16 @@ describe('published check values', () => {
     expect(Math.abs(kPaAbsToPsig(saturationPressure('R-744', info.validRange.minC, 'dew')) - 60.4)).toBeLessThanOrEqual(0.3);
     // No liquid below the triple point: the engine refuses it.
     expect(() => saturationPressure('R-744', -57, 'dew')).toThrow(RefrigerantRangeError);
-    // Critical point 31 °C (TRADE-NOTES #29): the tables stop at least 1 K below it.
-    expect(info.validRange.maxC).toBeLessThanOrEqual(30);
+    // Critical point 30.978 °C / 7,377.3 kPa abs (CoolProp 8.0.0 / NIST WebBook, Span-Wagner EOS; TRADE-NOTES #29: 31 °C).
+    expect(info.critical).not.toBeNull();
+    expect(Math.abs((info.critical?.temperatureC ?? 0) - 30.978)).toBeLessThanOrEqual(0.001);
+    expect(Math.abs((info.critical?.pressureKPaAbs ?? 0) - 7377.3)).toBeLessThanOrEqual(0.1);
+    // The tables cover 29–31 °C up to 0.1 K below the critical point (the whole subcritical range).
+    expect(info.validRange.maxC).toBeGreaterThanOrEqual(30.85);
+    expect(info.validRange.maxC).toBeLessThan(30.978);
+    // CoolProp 8.0.0 HEOS::CarbonDioxide saturation pressures: 29 °C 7,050.9 kPa abs, 30 °C 7,213.7 kPa abs.
+    expect(Math.abs(saturationPressure('R-744', 29, 'bubble') - 7050.9)).toBeLessThanOrEqual(0.5);
+    expect(Math.abs(saturationPressure('R-744', 30, 'dew') - 7213.7)).toBeLessThanOrEqual(0.5);
   });
 });
 
@@ -210,7 +225,7 @@ describe('glide', () => {
 });
 
 describe('range and input errors', () => {
-  it('throws RefrigerantRangeError with its fields instead of returning NaN or clamping', () => {
+  it('throws RefrigerantRangeError with its fields instead of returning NaN or clamping (wiring: the error carries the engine\'s own range)', () => {
     const { minC, maxC } = getRefrigerant('R-404A').validRange;
     for (const bad of [minC - 0.01, maxC + 0.01, Number.NaN, Number.POSITIVE_INFINITY, Number.NEGATIVE_INFINITY]) {
       expect(() => saturationPressure('R-404A', bad, 'dew'), String(bad)).toThrow(RefrigerantRangeError);

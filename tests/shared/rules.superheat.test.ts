@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { BoxRuleEngine } from '../../shared/rules/engine';
 import { effectiveRule } from '../../shared/rules/defaults';
-import { COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K } from '../../shared/field/superheat';
+import { EVAPORATOR_SUPERHEAT_FLOOR_K } from '../../shared/field/superheat';
 import { MIN, T0, cooler, of, run } from './fixtures/ruleTrace';
 
 /** Compressor off for 5 min, then on: returns the time of the start. */
@@ -10,10 +10,10 @@ function startCompressor(e: BoxRuleEngine): number {
 }
 
 describe('superheat-high', () => {
-  it('sits 5 K above the target (our band) and superheat-low at the 5 °F compressor-protection minimum (common practice)', () => {
+  it('sits 5 K above the target (our band) and superheat-low at the 5 °F evaporator superheat floor (common practice)', () => {
     expect(effectiveRule(cooler({ superheatTargetK: 4 }), 'superheat-high').threshold).toBe(9);
-    expect(effectiveRule(cooler({ superheatTargetK: 8 }), 'superheat-low').threshold).toBeCloseTo(COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K, 6);
-    expect(COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K).toBeCloseTo(2.78, 2); // 5 °F difference = 2.78 K
+    expect(effectiveRule(cooler({ superheatTargetK: 8 }), 'superheat-low').threshold).toBeCloseTo(EVAPORATOR_SUPERHEAT_FLOOR_K, 6);
+    expect(EVAPORATOR_SUPERHEAT_FLOOR_K).toBeCloseTo(2.78, 2); // 5 °F difference = 2.78 K
     // A target set below the minimum moves the low alarm under the target so that it is not always on.
     expect(effectiveRule(cooler({ superheatTargetK: 3 }), 'superheat-low').threshold).toBeCloseTo(1.5, 6);
   });
@@ -57,7 +57,7 @@ describe('superheat-high', () => {
 });
 
 describe('superheat-low', () => {
-  it('raises after 10 min below the compressor-protection minimum', () => {
+  it('raises after 10 min below the evaporator superheat floor', () => {
     const e = new BoxRuleEngine(cooler({ superheatTargetK: 6 }));
     const startMs = startCompressor(e);
     const { events } = run(e, startMs, 16, { superheatK: 1.5, valvePercent: 5 });

@@ -138,3 +138,53 @@ function pullDownMinutes(box: ReturnType<typeof makeBox>): number[] {
 function mean(xs: number[]): number {
   return xs.reduce((a, b) => a + b, 0) / xs.length;
 }
+
+describe('faults for the sensor and pump-down alarm rules', () => {
+  it('sensor-stuck: the chosen thermistor keeps its value for hours while the healthy run moves and the compressor cycles', () => {
+    // A flat-lined sensor (shared/rules/sensors.ts: bit-identical for hours while the compressor cycled): common practice.
+    const { healthyBox, faultedBox } = compareWithFault({ kind: 'cooler' }, 'sensor-stuck', 0);
+    const stuckAt = faultedBox.reading().suctionLineC;
+    const seen = new Set<number>();
+    const healthySeen = new Set<number>();
+    const starts0 = faultedBox.compressorStarts;
+    runFor(faultedBox, 4, (m) => seen.add(m.reading().suctionLineC));
+    runFor(healthyBox, 4, (m) => healthySeen.add(m.reading().suctionLineC));
+    expect([...seen]).toEqual([stuckAt]);
+    expect(healthySeen.size).toBeGreaterThan(20);
+    expect(faultedBox.compressorStarts - starts0).toBeGreaterThanOrEqual(2);
+    // The other thermistors still move.
+    const air = new Set<number>();
+    runFor(faultedBox, 1, (m) => air.add(m.reading().boxAirC));
+    expect(air.size).toBeGreaterThan(3);
+  });
+
+  it('sensor-drift on box air: the reading climbs 0.5 K per hour above the truth and the controller holds the real box colder', () => {
+    // Our choice of drift rate (simulator/model/faults.ts DRIFT_K_PER_H); a controller regulating on a high-reading sensor over-cools: common practice.
+    const { healthy, faulted, faultedBox } = compareWithFault({ kind: 'cooler' }, 'sensor-drift', 6, 'boxAirC');
+    const offsets: number[] = [];
+    runFor(faultedBox, 1, (m) => offsets.push(m.reading().boxAirC - m.phys.airC));
+    const meanOffsetK = offsets.reduce((a, b) => a + b, 0) / offsets.length;
+    // 6.5 h to 7.5 h after the fault began: 3.25 … 3.75 K high (plus sensor noise).
+    expect(meanOffsetK).toBeGreaterThan(3.1);
+    expect(meanOffsetK).toBeLessThan(3.9);
+    expect(faulted.boxAirMeanC).toBeLessThan(healthy.boxAirMeanC - 1);
+  });
+
+  it('valve-leak-through-severe: pump-down never reaches the low-pressure cut-out and always ends on its time limit', () => {
+    // A leaking liquid-line solenoid or valve seat keeps feeding the coil, so the low side does not pump down (TRADE-NOTES §4 "Valve/solenoid leak-through"; severity our choice).
+    const { healthyBox, faultedBox } = compareWithFault({ kind: 'cooler' }, 'valve-leak-through-severe', 6);
+    const after = (b: typeof healthyBox) => b.events.filter((e) => e.kind === 'stop' && e.tS > 3600);
+    const healthyStops = after(healthyBox);
+    const faultedStops = after(faultedBox);
+    expect(healthyStops.filter((e) => e.reason === 'lp-cutout').length).toBeGreaterThan(3);
+    expect(healthyStops.some((e) => e.reason === 'pumpdown-timeout')).toBe(false);
+    expect(faultedStops.length).toBeGreaterThan(3);
+    expect(faultedStops.every((e) => e.reason === 'pumpdown-timeout')).toBe(true);
+    // At each time-out the suction pressure is still well above the cut-out.
+    const cutOut = faultedBox.lpSettings.cutOutKPaG;
+    for (const e of faultedStops) expect(e.suctionKPaG).toBeGreaterThan(cutOut + 20);
+    // The mild leak still pumps down (its signature is the restart on pressure, tested above).
+    const mild = compareWithFault({ kind: 'cooler' }, 'valve-leak-through', 6).faultedBox;
+    expect(after(mild).some((e) => e.reason === 'lp-cutout')).toBe(true);
+  });
+});
