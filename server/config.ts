@@ -42,6 +42,10 @@ const EnvSchema = z.object({
   DB_BUFFER_POOL_MIB: z.coerce.number().int().min(64).default(1024),
   DB_REDO_LOG_MIB: z.coerce.number().int().min(16).default(512),
   DATA_DIR: z.string().default(path.join(PROJECT_ROOT, '.data')),
+  /** Service-visit photos and PDFs, outside the web root, under random names (git-ignored). */
+  UPLOADS_DIR: z.string().default(path.join(PROJECT_ROOT, 'var', 'uploads')),
+  /** Largest attachment accepted, MiB. */
+  UPLOAD_MAX_MIB: z.coerce.number().positive().max(100).default(10),
   MQTT_PORT: z.coerce.number().int().min(0).max(65535).default(1883),
   MQTT_HOST: z.string().default('127.0.0.1'),
   /** When set, the ingest connects to this external broker and no broker is embedded. */
@@ -121,6 +125,11 @@ const EnvSchema = z.object({
    * evaluation on and off in one run; never turn it off in a real install (no alarm would be raised).
    */
   ALARMS_ENABLED: boolOn,
+  /**
+   * 1 (default): the hourly job that mails each site's weekly report on Monday 07:00–07:59 site
+   * time (server/reports/cron.ts). Unset under NODE_ENV=test: off (tests trigger the job themselves).
+   */
+  WEEKLY_REPORTS_ENABLED: boolOn,
 });
 
 export type Config = Omit<z.infer<typeof EnvSchema>, 'PUSH_FAKE'> & { PUSH_FAKE: boolean; publicUrl: string };
@@ -161,5 +170,6 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
   }
   // Tests start with no demo history unless one asks for it (seeding costs seconds).
   const historyDays = env.DEMO_HISTORY_DAYS === undefined && c.NODE_ENV === 'test' ? 0 : c.DEMO_HISTORY_DAYS;
-  return { ...c, DEMO_HISTORY_DAYS: historyDays, PUSH_FAKE: c.PUSH_FAKE ?? c.NODE_ENV !== 'production', publicUrl: c.PUBLIC_URL ?? `http://${c.HOST === '0.0.0.0' ? '127.0.0.1' : c.HOST}:${c.PORT}` };
+  const weeklyReports = env.WEEKLY_REPORTS_ENABLED === undefined && c.NODE_ENV === 'test' ? false : c.WEEKLY_REPORTS_ENABLED;
+  return { ...c, DEMO_HISTORY_DAYS: historyDays, WEEKLY_REPORTS_ENABLED: weeklyReports, PUSH_FAKE: c.PUSH_FAKE ?? c.NODE_ENV !== 'production', publicUrl: c.PUBLIC_URL ?? `http://${c.HOST === '0.0.0.0' ? '127.0.0.1' : c.HOST}:${c.PORT}` };
 }

@@ -22,6 +22,7 @@ import { LiveHub } from './ws/hub';
 import { AlarmService } from './alarms/service';
 import { PushService } from './push/service';
 import { registerDemoPushDevice } from './push/demo';
+import { scheduleWeeklyReports } from './reports/cron';
 
 export interface RunningServer {
   url: string;
@@ -155,6 +156,8 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
     });
   }
 
+  // Weekly report e-mails, hourly (WEEKLY_REPORTS_ENABLED; off in tests unless asked).
+  if (config.WEEKLY_REPORTS_ENABLED) stops.push(scheduleWeeklyReports(ctx));
   const { app, sessionMiddleware, passportInitialize, passportSession } = createApp(ctx, settings);
   const server = http.createServer(app);
   await new Promise<void>((resolve, reject) => {

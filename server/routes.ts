@@ -10,6 +10,11 @@ import { refrigerantRoutes } from './refrigerants/routes';
 import { registerAlarmRoutes } from './alarms/routes';
 import { registerPushRoutes } from './push/routes';
 import { importRoutes } from './imports/routes';
+import { trendsRoutes } from './trends/routes';
+import { reportRoutes } from './reports/routes';
+import { foodLogRoutes } from './foodLog/routes';
+import { attachmentRoutes, visitRoutes } from './visits/routes';
+import { refrigerantLogRoutes } from './refrigerantLog/routes';
 
 /** Mounts every feature's router on the API router. */
 export function registerFeatureRoutes(api: Router, ctx: AppContext): void {
@@ -23,5 +28,11 @@ export function registerFeatureRoutes(api: Router, ctx: AppContext): void {
   api.use('/imports', importRoutes(ctx)); // CSV import of boxes with controllers (admin, technician)
   registerAlarmRoutes(api, ctx); // /alarms, /boxes/:id/maintenance, /oncall
   registerPushRoutes(api, ctx); // /push, and /dev/push-* with the fake push service
+  api.use('/food-log', foodLogRoutes(ctx)); // food-safety temperature log: day view, entries, sign-off, CSV/PDF export
+  api.use('/trends', trendsRoutes(ctx)); // weekly trends of a box or a site, CSV export
+  api.use('/reports', reportRoutes(ctx)); // weekly report e-mails: list, send now (admin)
+  api.use('/visits', visitRoutes(ctx)); // service visits with charging checks, linked alarms, attachments
+  api.use('/attachments', attachmentRoutes(ctx)); // visit photos and PDFs, in scope of their visit
+  api.use('/refrigerant-log', refrigerantLogRoutes(ctx)); // per-box refrigerant log with the annualized leak rate
   // telemetry routes are mounted by the lead below
 }

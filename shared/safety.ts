@@ -9,7 +9,8 @@ export type CautionKey =
   | 'refrigerantHandling'
   | 'electrical'
   | 'foodSafety'
-  | 'notADiagnosis';
+  | 'notADiagnosis'
+  | 'leakRateAid';
 
 export interface Caution {
   readonly key: CautionKey;
@@ -77,6 +78,15 @@ export const CAUTIONS: Readonly<Record<CautionKey, Caution>> = Object.freeze({
       "Rimehold's readings and calculations support a trained technician's judgement. They are not a " +
       'diagnosis, a charging instruction or a compliance finding; local codes, the equipment maker’s ' +
       'instructions and certified practice come first.',
+  },
+  leakRateAid: {
+    key: 'leakRateAid',
+    title: 'Leak rate: an aid, not a compliance finding',
+    text:
+      'The leak rate, threshold and repair deadline shown here are computed from the entries in this log ' +
+      'as an aid to record keeping. Whether a leak-repair rule applies depends on the refrigerant, the ' +
+      'full charge and the rules in force; the applicable regulations and a certified technician decide, ' +
+      'and the owner or operator remains responsible for the required records and repairs.',
   },
 });
 

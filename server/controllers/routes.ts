@@ -1,62 +1,15 @@
 /** /api/v1/controllers (admin only): list, provision (secret shown once), rotate the secret, disable, enable. */
 import { Router } from 'express';
-import { Op, type WhereOptions } from 'sequelize';
-import { z } from 'zod';
-import { ControllerCreateBody, ControllerUpdateBody, type ControllerSummary } from '../../shared/schemas/boxes';
+import { ControllerCreateBody, ControllerUpdateBody } from '../../shared/schemas/boxes';
 import type { AppContext } from '../context';
 import type { Controller } from '../models';
-import { requireRole } from '../auth/guards';
-import { pageOf, pageResult, parseBody, parseId, parseQuery } from '../http/validate';
-import { contains } from '../http/search';
+import { currentUser, requireRole } from '../auth/guards';
+import { parseBody, parseId } from '../http/validate';
+import { parseListQuery } from '../http/list';
 import { audit } from '../audit/service';
-import { loadController, provisionController, rotateSecret, setDisabled, setGaugeReference, toControllerSummary } from './service';
+import { CONTROLLER_LIST, listControllers, loadController, provisionController, rotateSecret, setDisabled, setGaugeReference, toControllerSummary } from './service';
 
-/** A row of GET /controllers: the summary plus where the controller is installed. */
-export interface ControllerListItem extends ControllerSummary {
-  boxId: number;
-  boxName: string;
-  siteId: number;
-  siteName: string;
-  customerId: number;
-  customerName: string;
-  secretRotatedAt: string | null;
-  createdAt: string;
-}
-
-type ControllerWithBox = Controller & {
-  box?: { id: number; name: string; siteId: number; customerId: number; site?: { name: string }; customer?: { name: string } };
-};
-
-const LIST_INCLUDE = [
-  {
-    association: 'box',
-    attributes: ['id', 'name', 'siteId', 'customerId'],
-    include: [
-      { association: 'site', attributes: ['id', 'name'] },
-      { association: 'customer', attributes: ['id', 'name'] },
-    ],
-  },
-];
-
-/** Presents a controller row of the admin list. */
-export function toControllerListItem(c: ControllerWithBox): ControllerListItem {
-  return {
-    ...toControllerSummary(c),
-    boxId: c.boxId,
-    boxName: c.box?.name ?? '',
-    siteId: c.box?.siteId ?? 0,
-    siteName: c.box?.site?.name ?? '',
-    customerId: c.box?.customerId ?? 0,
-    customerName: c.box?.customer?.name ?? '',
-    secretRotatedAt: c.secretRotatedAt?.toISOString() ?? null,
-    createdAt: c.createdAt.toISOString(),
-  };
-}
-
-const ControllerFilter = z.object({
-  boxId: z.coerce.number().int().positive().optional(),
-  customerId: z.coerce.number().int().positive().optional(),
-});
+export { toControllerListItem, type ControllerListItem } from './service';
 
 /** The controllers router. */
 export function controllerRoutes(ctx: AppContext): Router {
@@ -65,21 +18,7 @@ export function controllerRoutes(ctx: AppContext): Router {
   r.use(requireRole('admin'));
 
   r.get('/', async (req, res) => {
-    const p = pageOf(req);
-    const filter = parseQuery(ControllerFilter, req);
-    const where: WhereOptions<Controller>[] = [];
-    if (filter.boxId !== undefined) where.push({ boxId: filter.boxId });
-    if (filter.customerId !== undefined) where.push({ '$box.customer_id$': filter.customerId });
-    if (p.q) where.push({ serial: contains(p.q) });
-    const { rows, count } = await models.Controller.findAndCountAll({
-      where: { [Op.and]: where },
-      include: LIST_INCLUDE,
-      order: [['serial', 'ASC']],
-      limit: p.pageSize,
-      offset: p.offset,
-      distinct: true,
-    });
-    res.json(pageResult(rows.map((c: ControllerWithBox) => toControllerListItem(c)), count, p));
+    res.json(await listControllers(ctx, currentUser(req), parseListQuery(CONTROLLER_LIST, req.query)));
   });
 
   r.post('/', async (req, res) => {

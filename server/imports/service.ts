@@ -11,7 +11,8 @@ import { fToC, parseUserNumber } from '../../shared/field/units';
 import { BoxCreateBody, ControllerCreateBody } from '../../shared/schemas/boxes';
 import type { ProblemDetails } from '../../shared/schemas/common';
 import type { SessionUser } from '../../shared/schemas/auth';
-import { IMPORT_BOX_DEFAULTS, type ImportReport, type ImportResult, type ImportRowReport, type ImportedSecret } from '../../shared/schemas/imports';
+import { type ImportReport, type ImportResult, type ImportRowReport, type ImportedSecret } from '../../shared/schemas/imports';
+import { BOX_DEFAULTS } from '../../shared/boxFields';
 import type { AppContext } from '../context';
 import type { Models } from '../models';
 import { scopeWhere } from '../auth/guards';
@@ -161,7 +162,7 @@ export async function planImport(models: Models, user: SessionUser, rows: CsvDat
     if (!unit) reasons.push(`unit: "${c.unit}" is not C or F`);
     const kindCell = lower(c.kind);
     const kind: BoxKind = (BOX_KINDS as readonly string[]).includes(kindCell) ? (kindCell as BoxKind) : 'cooler';
-    const defaults = IMPORT_BOX_DEFAULTS[kind];
+    const defaults = BOX_DEFAULTS[kind];
     const temp = (column: string, cell: string, fallbackC: number | undefined): number | undefined => {
       if (cell === '') {
         if (fallbackC === undefined) reasons.push(`${column}: enter a number`);

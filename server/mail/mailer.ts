@@ -7,6 +7,8 @@ export interface MailMessage {
   subject: string;
   text: string;
   html?: string;
+  /** Files sent with the mail (e.g. a chart as SVG); `cid` lets the HTML part refer to one inline. */
+  attachments?: Array<{ filename: string; content: string | Buffer; contentType: string; cid?: string }>;
 }
 
 export interface Mailer {

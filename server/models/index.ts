@@ -12,6 +12,8 @@ import type { BoxKind, DefrostType, Role, SaturationMethod, UnitSystemPref, Valv
 import { alarmModelClasses, initAlarmModels, type AlarmModels } from './alarms';
 import { GAUGE_REFERENCES, type GaugeReference } from '../../shared/schemas/boxes';
 import { initRuleOverrideModels, ruleOverrideModelClasses, type RuleOverrideModels } from './ruleOverrides';
+import { foodLogModelClasses, initFoodLogModels, type FoodLogModels } from './foodLog';
+import { initRecordModels, recordModelClasses, type RecordModels } from './records';
 
 const id = { type: DataTypes.INTEGER.UNSIGNED, autoIncrement: true, primaryKey: true };
 const ts = { createdAt: DataTypes.DATE(3), updatedAt: DataTypes.DATE(3) };
@@ -131,7 +133,7 @@ export class SettingsChange extends Model<InferAttributes<SettingsChange>, Infer
   declare error: string | null;
 }
 
-export interface Models extends AlarmModels, RuleOverrideModels {
+export interface Models extends AlarmModels, RuleOverrideModels, FoodLogModels, RecordModels {
   Customer: typeof Customer;
   Site: typeof Site;
   Box: typeof Box;
@@ -156,10 +158,14 @@ export function initModels(sequelize: Sequelize): Models {
     SettingsChange: class extends SettingsChange {},
     ...alarmModelClasses(),
     ...ruleOverrideModelClasses(),
+    ...foodLogModelClasses(),
+    ...recordModelClasses(),
   };
   initInto(sequelize, m);
   initAlarmModels(sequelize, m);
   initRuleOverrideModels(sequelize, m);
+  initFoodLogModels(sequelize, m);
+  initRecordModels(sequelize, m);
   return m;
 }
 

@@ -1,6 +1,7 @@
 /** The invented demo scenario: one contractor, three customers, six sites, 24 boxes. Every name is made up. */
 import type { BoxCreateBody } from '../../shared/schemas/boxes';
 import type { Role } from '../../shared/domain';
+import { BOX_DEFAULTS } from '../../shared/boxFields';
 
 export const DEMO_CONTRACTOR = 'Kettle Ridge Refrigeration Co.';
 
@@ -21,43 +22,25 @@ export const DEMO_USERS: DemoUser[] = [
 
 type BoxSpec = Omit<BoxCreateBody, 'siteId'>;
 
+// The box form's starting values (shared/boxFields.ts) with the demo's own choices on top.
 const cooler = (name: string, refrigerant: BoxSpec['refrigerant'], extra: Partial<BoxSpec> = {}): BoxSpec => ({
+  ...BOX_DEFAULTS.cooler, // highLimitC 5 °C = 41 °F: FDA Food Code 3-501.16(A)(2) cold holding
   name,
-  kind: 'cooler',
-  setpointC: 2,
-  differentialK: 1.5,
-  highLimitC: 5, // 41 °F: FDA Food Code 3-501.16(A)(2) cold holding
+  refrigerant,
   lowLimitC: 0,
   alarmDelayMin: 45,
-  doorAlarmDelayMin: 5,
-  refrigerant,
-  valveType: 'eev',
-  saturationMethod: 'pressure',
   superheatTargetK: 3.3, // ~6 °F
-  defrostType: 'off-cycle',
-  defrostIntervalH: 6,
   defrostMaxMin: 40,
   defrostTerminationC: 5,
-  dripMin: 2,
-  fanDelayMin: 0,
   ...extra,
 });
 
 const freezer = (name: string, refrigerant: BoxSpec['refrigerant'], extra: Partial<BoxSpec> = {}): BoxSpec => ({
+  ...BOX_DEFAULTS.freezer, // highLimitC −12 °C, about +10 °F: common practice for a freezer high alarm
   name,
-  kind: 'freezer',
-  setpointC: -20,
-  differentialK: 2,
-  highLimitC: -12, // about +10 °F, common practice for a freezer high alarm
-  lowLimitC: -30,
-  alarmDelayMin: 60,
-  doorAlarmDelayMin: 5,
   refrigerant,
-  valveType: 'eev',
-  saturationMethod: 'pressure',
+  alarmDelayMin: 60,
   superheatTargetK: 3,
-  defrostType: 'electric',
-  defrostIntervalH: 6,
   defrostMaxMin: 40,
   defrostTerminationC: 10,
   dripMin: 5,

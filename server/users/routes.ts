@@ -2,10 +2,11 @@
 import { Router, type Request } from 'express';
 import { UserCreateBody, UserUpdateBody } from '../../shared/schemas/users';
 import type { AppContext } from '../context';
-import { pageOf, pageResult, parseBody, parseId } from '../http/validate';
+import { parseBody, parseId } from '../http/validate';
+import { parseListQuery } from '../http/list';
 import { sentFields } from '../http/patch';
 import { currentUser, requireRole } from '../auth/guards';
-import { createUser, getUser, listUsers, reinviteUser, updateUser, type Actor } from './service';
+import { USER_LIST, createUser, getUser, listUsers, reinviteUser, updateUser, type Actor } from './service';
 
 export { toUserDto } from './service';
 
@@ -19,9 +20,7 @@ export function userRoutes(ctx: AppContext): Router {
   r.use(requireRole('admin'));
 
   r.get('/', async (req, res) => {
-    const p = pageOf(req);
-    const { items, total } = await listUsers(ctx, { q: p.q, pageSize: p.pageSize, offset: p.offset });
-    res.json(pageResult(items, total, p));
+    res.json(await listUsers(ctx, actorOf(req), parseListQuery(USER_LIST, req.query)));
   });
 
   r.get('/:id', async (req, res) => {

@@ -1,12 +1,14 @@
 /** Users (admin only): list, create with an invitation, edit role/scope/account state, re-invite. */
-import { Op, type WhereOptions } from 'sequelize';
+import { Op } from 'sequelize';
 import type { SessionUser } from '../../shared/schemas/auth';
 import type { UserCreateBody, UserDto, UserUpdateBody } from '../../shared/schemas/users';
+import type { Page } from '../../shared/schemas/common';
 import type { AppContext } from '../context';
 import type { Models, User } from '../models';
 import { auditBy, type AuditInput } from '../audit/service';
 import { problems } from '../http/problem';
 import { changedKeys } from '../http/patch';
+import { defineList, noScope, runList, type ListInputOf } from '../http/list';
 import { sendInvitation } from './invite';
 
 /** Who acts: the signed-in admin and the request id for the audit trail. */
@@ -59,11 +61,17 @@ async function assertEmailFree(models: Models, email: string, exceptId: number |
   if (other && other.id !== exceptId) throw problems.conflict(`A user with e-mail ${email} already exists.`);
 }
 
-/** One page of users, by name, optionally searched by e-mail or name. */
-export async function listUsers(deps: UserDeps, input: { q?: string; pageSize: number; offset: number }): Promise<{ items: UserDto[]; total: number }> {
-  const where: WhereOptions<User> = input.q ? { [Op.or]: [{ email: { [Op.like]: `%${input.q}%` } }, { name: { [Op.like]: `%${input.q}%` } }] } : {};
-  const { rows, count } = await deps.models.User.findAndCountAll({ where, order: [['name', 'ASC']], limit: input.pageSize, offset: input.offset });
-  return { items: rows.map(toUserDto), total: count };
+/** GET /users (admin only, every tenant): searched by e-mail or name, sorted by name (default), e-mail, role or last sign-in. */
+export const USER_LIST = defineList<User, 'name' | 'email' | 'role' | 'lastLoginAt'>({
+  sorts: { name: ['name'], email: ['email'], role: ['role'], lastLoginAt: ['lastLoginAt'] },
+  defaultSort: 'name',
+  search: (like) => ({ [Op.or]: [{ email: like }, { name: like }] }),
+  scope: noScope,
+});
+
+/** One page of users for the admin list. */
+export async function listUsers(deps: UserDeps, actor: Actor, input: ListInputOf<typeof USER_LIST>): Promise<Page<UserDto>> {
+  return runList(deps.models.User, USER_LIST, actor.user, input, (rows) => rows.map(toUserDto));
 }
 
 /** One user, or a 404 problem. */

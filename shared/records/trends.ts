@@ -225,7 +225,35 @@ export function superheatBand(targetK: number): { lowK: number; highK: number } 
 /** The week's summary: time in range %, minutes above the high limit, duty, door, defrosts, alarms by rule, mean time to acknowledge (min). */
 export function summarize(buckets: readonly RollupBucket[], defrosts: readonly DefrostPeriod[], alarms: readonly AlarmFact[], box: Pick<TrendBox, 'highLimitC' | 'lowLimitC'>): TrendSummaryDto {
   const t = totalsOf(buckets, box);
-  return { ...summaryOfTotals(t, defrosts.length), ...alarmFigures(alarms) };
+  return { ...summaryOfTotals(t, defrosts.length), ...excursionFigures(buckets, box.highLimitC), ...alarmFigures(alarms) };
+}
+
+/** Length of the buckets the summary reads, ms (readings_15m). */
+export const SUMMARY_BUCKET_MS = 15 * MIN;
+
+/**
+ * Excursions from buckets: a run of buckets, each starting where the one before ended, whose mean
+ * box air is above limitC. Duration = the run's covered time, min.
+ */
+export function excursionFigures(buckets: readonly RollupBucket[], limitC: number, bucketMs = SUMMARY_BUCKET_MS): Pick<TrendSummaryDto, 'excursionCount' | 'longestExcursionMin'> {
+  let count = 0;
+  let longest = 0;
+  let runMs = 0;
+  let lastStart: number | null = null;
+  for (const b of buckets) {
+    const above = b.samples > 0 && mean(b) > limitC;
+    const joined = lastStart !== null && b.startMs === lastStart + bucketMs;
+    if (above) {
+      if (runMs > 0 && joined) runMs += b.coveredMs;
+      else {
+        count++;
+        runMs = b.coveredMs;
+      }
+      longest = Math.max(longest, runMs);
+    } else runMs = 0;
+    lastStart = b.startMs;
+  }
+  return { excursionCount: count, longestExcursionMin: round(longest / MIN) };
 }
 
 function summaryOfTotals(t: Totals, defrostCount: number) {
@@ -260,7 +288,7 @@ export function combineSummaries(items: readonly TrendSummaryDto[], alarms: read
   let inRange = 0;
   let dutyMin = 0;
   let dutyCovered = 0;
-  const out = { minutesAboveLimit: 0, doorOpenMin: 0, defrostCount: 0 };
+  const out = { minutesAboveLimit: 0, doorOpenMin: 0, defrostCount: 0, excursionCount: 0, longestExcursionMin: 0 };
   for (const s of items) {
     covered += s.coveredMin;
     if (s.timeInRangePercent !== null) inRange += (s.timeInRangePercent / 100) * s.coveredMin;
@@ -271,6 +299,8 @@ export function combineSummaries(items: readonly TrendSummaryDto[], alarms: read
     out.minutesAboveLimit += s.minutesAboveLimit;
     out.doorOpenMin += s.doorOpenMin;
     out.defrostCount += s.defrostCount;
+    out.excursionCount += s.excursionCount;
+    out.longestExcursionMin = Math.max(out.longestExcursionMin, s.longestExcursionMin);
   }
   return {
     coveredMin: round(covered),
@@ -279,6 +309,8 @@ export function combineSummaries(items: readonly TrendSummaryDto[], alarms: read
     compressorDutyPercent: pct(dutyMin, dutyCovered),
     doorOpenMin: round(out.doorOpenMin),
     defrostCount: out.defrostCount,
+    excursionCount: out.excursionCount,
+    longestExcursionMin: out.longestExcursionMin,
     ...alarmFigures(alarms),
   };
 }
@@ -299,6 +331,7 @@ export const DOOR_FINDING_FLOOR_MIN = 60;
 /** What the findings read. */
 export interface FindingInput {
   box: TrendBox;
+  /** Hourly superheat and valve sums (raw readings while the compressor ran, or 1 h rollups). */
   hourBuckets: readonly RollupBucket[];
   defrosts: readonly DefrostPeriod[];
   summary: TrendSummaryDto;
@@ -331,7 +364,7 @@ export function findings(inp: FindingInput): TrendFindingDto[] {
       ...who,
       id: 'superheat-high-valve-open',
       title: 'High superheat with the valve near fully open',
-      text: `For ${hot.length} h superheat averaged ${round(sh)} K (above ${round(highK)} K) while the valve stood at ${round(valve)} % on average. A valve that is open and still cannot feed the coil points to low charge or a restriction (filter-drier, liquid line): check the charge and the liquid line (common practice).`,
+      text: `For ${hot.length} h with the compressor running, superheat averaged ${round(sh)} K (above ${round(highK)} K) while the valve stood at ${round(valve)} % on average. A valve that is open and still cannot feed the coil points to low charge or a restriction (filter-drier, liquid line): check the charge and the liquid line (common practice).`,
       figures: { hours: hot.length, superheatMeanK: round(sh, 2), superheatHighK: round(highK, 2), valveMeanPercent: round(valve), valveNearOpenPercent: VALVE_NEAR_OPEN_PERCENT },
     });
   }

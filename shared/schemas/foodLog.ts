@@ -109,6 +109,8 @@ export type FoodLogSource = 'raw' | 'rollup-1m' | 'none';
 export interface FoodLogDayDto {
   day: string;
   source: FoodLogSource;
+  /** Raw readings left out because their box-air sensor was flagged (failed, implausible or stuck). */
+  doubtedReadings: number;
   scheduled: Array<{ label: string; at: string; readingAt: string | null; boxAirC: number | null }>;
   minC: number | null;
   maxC: number | null;

@@ -53,6 +53,9 @@ export interface TrendSummaryDto {
   coveredMin: number;
   timeInRangePercent: number | null;
   minutesAboveLimit: number;
+  /** Runs of consecutive 15-min buckets with mean box air above the high limit, and the longest one, min. */
+  excursionCount: number;
+  longestExcursionMin: number;
   compressorDutyPercent: number | null;
   doorOpenMin: number;
   defrostCount: number;

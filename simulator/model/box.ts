@@ -51,6 +51,8 @@ const SENSOR_FAILED_ABOVE_C = 125;
 /** With its box-air sensor failed the controller runs a fixed duty: 15 min of every 30 (our choice). */
 const FALLBACK_PERIOD_S = 1800;
 const FALLBACK_ON_S = 900;
+/** The EEV mode of a closed feed (shared: it has no fields to change). */
+const CLOSED_MODE: EevMode = { kind: 'closed' };
 /** Pressure the low side creeps to after a pump-down with a tight valve, kPa above the cut-out (our choice). */
 const CREEP_ABOVE_CUTOUT_KPA = 25;
 const MAX_EVENTS = 5000;
@@ -86,6 +88,11 @@ export class BoxModel {
   /** Liquid-to-suction pressure difference at rated conditions, kPa (the valve's capacity is stated there). */
   designValveDeltaKPa = 1;
   private lp = { cutOutKPaG: 0, cutInKPaG: 0 };
+  /** What control() hands the physics, reused every step (the physics reads it within the step only). */
+  private readonly controlOut: ControlOutputs = { heat: false, fansMoveAir: true };
+  /** The EEV modes driveValve() asks for, reused every step (the valve reads them within its update only). */
+  private readonly holdMode = { kind: 'hold' as const, fraction: 0 };
+  private readonly piMode = { kind: 'pi' as const, superheatK: 0, targetK: 0 };
 
   constructor(params: BoxModelParams, seed: number) {
     this.params = { ...params };
@@ -123,13 +130,13 @@ export class BoxModel {
 
   /** Liquid reaches the coil: the feed is commanded open, or a badly leaking seat passes it anyway. */
   get feedOpen(): boolean {
-    return this.feedCommanded || this.faults.has('valve-leak-through-severe');
+    return this.feedCommanded || (this.faults.size > 0 && this.faults.has('valve-leak-through-severe'));
   }
 
   /** Valve opening as the refrigerant sees it, fraction of full travel (EEV steps / full steps, or the TXV's lift; a badly leaking seat passes at least SEVERE_LEAK_OPEN_FRACTION). */
   get valveFraction(): number {
     const commanded = this.eev ? this.eev.fraction : (this.txv?.fraction ?? 0);
-    return this.faults.has('valve-leak-through-severe') ? Math.max(commanded, SEVERE_LEAK_OPEN_FRACTION) : commanded;
+    return this.faults.size > 0 && this.faults.has('valve-leak-through-severe') ? Math.max(commanded, SEVERE_LEAK_OPEN_FRACTION) : commanded;
   }
 
   /** EEV position, steps (undefined for a TXV box). */
@@ -216,7 +223,7 @@ export class BoxModel {
   private control(dtS: number): ControlOutputs {
     const p = this.params;
     const boxC = this.sensedC('boxAirC', this.phys.airC);
-    const differentialK = this.faults.has('short-cycling') ? SHORT_CYCLE_DIFFERENTIAL_K : p.differentialK;
+    const differentialK = this.faults.size > 0 && this.faults.has('short-cycling') ? SHORT_CYCLE_DIFFERENTIAL_K : p.differentialK;
     if (boxC === null) this.call = this.tS % FALLBACK_PERIOD_S < FALLBACK_ON_S;
     else if (boxC >= p.setpointC + differentialK) this.call = true;
     else if (boxC <= p.setpointC) this.call = false;
@@ -243,7 +250,10 @@ export class BoxModel {
     this.defrostOn = d.defrostOn;
     this.heaterOn = d.heat;
     this.driveValve(dtS);
-    return { heat: d.heat, fansMoveAir: this.fansMoveAir() };
+    const out = this.controlOut;
+    out.heat = d.heat;
+    out.fansMoveAir = this.fansMoveAir();
+    return out;
   }
 
   /** An EEV controller starts the compressor only once the valve has reached its start opening. */
@@ -260,11 +270,20 @@ export class BoxModel {
     const p = this.params;
     let mode: EevMode;
     const lineC = this.sensedC('suctionLineC', this.phys.suctionLineC);
-    if (!this.feedCommanded) mode = { kind: 'closed' };
-    else if (!this.compressorOn || this.tS - this.compressorSinceS < p.eevStartHoldS) mode = { kind: 'hold', fraction: p.eevStartFraction };
-    else if (lineC === null) mode = { kind: 'hold', fraction: p.eevFallbackFraction };
-    else mode = { kind: 'pi', superheatK: lineC - this.fluid.dewC(this.phys.suctionKPaAbs), targetK: p.superheatTargetK };
+    if (!this.feedCommanded) mode = CLOSED_MODE;
+    else if (!this.compressorOn || this.tS - this.compressorSinceS < p.eevStartHoldS) mode = this.hold(p.eevStartFraction);
+    else if (lineC === null) mode = this.hold(p.eevFallbackFraction);
+    else {
+      this.piMode.superheatK = lineC - this.fluid.dewC(this.phys.suctionKPaAbs);
+      this.piMode.targetK = p.superheatTargetK;
+      mode = this.piMode;
+    }
     this.eev.update(dtS, mode);
+  }
+
+  private hold(fraction: number): EevMode {
+    this.holdMode.fraction = fraction;
+    return this.holdMode;
   }
 
   private switchCompressor(on: boolean, suctionKPaG: number, reason?: StopReason): void {
@@ -277,7 +296,7 @@ export class BoxModel {
 
   /** Fans turning and moving air (a failed fan motor moves none even when commanded on). */
   fansMoveAir(): boolean {
-    return this.fanOn && !this.faults.has('evap-fan-failed');
+    return this.fanOn && !(this.faults.size > 0 && this.faults.has('evap-fan-failed'));
   }
 
   /** Rated compressor suction pressure, kPa abs, for the current refrigerant. */
@@ -292,6 +311,7 @@ export class BoxModel {
   }
 
   private faultedSensorC(name: ThermistorName): number | null {
+    if (this.faults.size === 0) return null;
     if (this.faults.get('thermistor-open')?.sensor === name) return OPEN_THERMISTOR_C;
     if (this.faults.get('thermistor-shorted')?.sensor === name) return SHORTED_THERMISTOR_C;
     const stuck = this.faults.get('sensor-stuck');
@@ -301,6 +321,7 @@ export class BoxModel {
 
   /** How far a drifting thermistor reads above the truth now, K (0 for the others). */
   private driftK(name: ThermistorName): number {
+    if (this.faults.size === 0) return 0;
     const drift = this.faults.get('sensor-drift');
     if (drift?.sensor !== name) return 0;
     return Math.min(DRIFT_MAX_K, (DRIFT_K_PER_H * (this.tS - drift.sinceS)) / 3600);

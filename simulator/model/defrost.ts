@@ -119,13 +119,26 @@ export class DefrostCycle {
     const heated = this.heated();
     switch (this.phase) {
       case 'none':
-        return { phase: 'none', heat: false, fans: true, lockout: false, feed: 'normal', defrostOn: false };
+        return OUT_NONE;
       case 'defrost':
-        return { phase: 'defrost', heat: heated && !compressorOn, fans: !heated, lockout: true, feed: 'closed', defrostOn: true };
+        return heated ? (compressorOn ? OUT_DEFROST_HEATED_PUMPING : OUT_DEFROST_HEATING) : OUT_DEFROST_OFF_CYCLE;
       case 'drip':
-        return { phase: 'drip', heat: false, fans: !heated, lockout: true, feed: 'closed', defrostOn: true };
+        return heated ? OUT_DRIP_HEATED : OUT_DRIP_OFF_CYCLE;
       case 'fan-delay':
-        return { phase: 'fan-delay', heat: false, fans: false, lockout: false, feed: 'open', defrostOn: false };
+        return OUT_FAN_DELAY;
     }
   }
 }
+
+// Every answer outputs() can give, made once: step() runs every model step, and a new object each
+// time was measurable garbage. Frozen, so a caller cannot change what the next step returns.
+const outputsOf = (o: DefrostOutputs): DefrostOutputs => Object.freeze(o);
+const OUT_NONE = outputsOf({ phase: 'none', heat: false, fans: true, lockout: false, feed: 'normal', defrostOn: false });
+/** Heated defrost: the heat waits until the pump-down has stopped the compressor; the fans stay off. */
+const OUT_DEFROST_HEATED_PUMPING = outputsOf({ phase: 'defrost', heat: false, fans: false, lockout: true, feed: 'closed', defrostOn: true });
+const OUT_DEFROST_HEATING = outputsOf({ phase: 'defrost', heat: true, fans: false, lockout: true, feed: 'closed', defrostOn: true });
+/** Off-cycle defrost: no heat, the fans melt the frost with box air. */
+const OUT_DEFROST_OFF_CYCLE = outputsOf({ phase: 'defrost', heat: false, fans: true, lockout: true, feed: 'closed', defrostOn: true });
+const OUT_DRIP_HEATED = outputsOf({ phase: 'drip', heat: false, fans: false, lockout: true, feed: 'closed', defrostOn: true });
+const OUT_DRIP_OFF_CYCLE = outputsOf({ phase: 'drip', heat: false, fans: true, lockout: true, feed: 'closed', defrostOn: true });
+const OUT_FAN_DELAY = outputsOf({ phase: 'fan-delay', heat: false, fans: false, lockout: false, feed: 'open', defrostOn: false });

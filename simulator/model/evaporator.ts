@@ -71,15 +71,34 @@ export function solveEvaporator(input: EvaporatorInput): EvaporatorState {
     const sh = superheatFromDryFraction(span, dry);
     return { targetKPaAbs: feedKPa, superheatK: sh, fromCoilW: feedW * (1 + SENSIBLE_PER_K * sh), flooded: false };
   }
-  // Flooded: the coil, not the valve, limits. Find P where compressor flow = UA · (T_air − T_mean(P)).
+  const p = floodedKPaAbs(fluid, sourceC, uaWPerK, compressorRatedW, ratedKPaAbs, floorKPa, feedKPa);
+  return { targetKPaAbs: p, superheatK: 0, fromCoilW: (compressorRatedW * p) / ratedKPaAbs, flooded: true };
+}
+
+/**
+ * The suction pressure solveEvaporator settles at, kPa abs, without the rest of its answer: the
+ * same arithmetic in the same order (so the same number), but no objects and no superheat, for the
+ * model's step, which needs only the pressure.
+ */
+export function evaporatorTargetKPaAbs(fluid: Fluid, sourceC: number, uaWPerK: number, feedWIn: number, compressorRatedW: number, ratedKPaAbs: number): number {
+  const floorKPa = fluid.minKPaAbs * 1.02;
+  const feedW = Math.max(0, feedWIn);
+  if (feedW <= 0) return floorKPa;
+  const feedKPa = Math.max(floorKPa, (ratedKPaAbs * feedW) / compressorRatedW);
+  const potentialW = uaWPerK * Math.max(0, sourceC - meanCoilC(fluid, feedKPa));
+  if (potentialW > feedW) return feedKPa;
+  return floodedKPaAbs(fluid, sourceC, uaWPerK, compressorRatedW, ratedKPaAbs, floorKPa, feedKPa);
+}
+
+/** Flooded: the coil, not the valve, limits. Bisects for P (kPa abs) where compressor flow = UA · (T_metal − T_mean(P)). */
+function floodedKPaAbs(fluid: Fluid, sourceC: number, uaWPerK: number, compressorRatedW: number, ratedKPaAbs: number, floorKPa: number, feedKPa: number): number {
   let lo = floorKPa;
   let hi = Math.max(feedKPa, floorKPa * 1.01);
-  const excess = (p: number) => (compressorRatedW * p) / ratedKPaAbs - uaWPerK * Math.max(0, sourceC - meanCoilC(fluid, p));
   for (let i = 0; i < 40; i++) {
     const mid = 0.5 * (lo + hi);
-    if (excess(mid) > 0) hi = mid;
+    const excessW = (compressorRatedW * mid) / ratedKPaAbs - uaWPerK * Math.max(0, sourceC - meanCoilC(fluid, mid));
+    if (excessW > 0) hi = mid;
     else lo = mid;
   }
-  const p = 0.5 * (lo + hi);
-  return { targetKPaAbs: p, superheatK: 0, fromCoilW: (compressorRatedW * p) / ratedKPaAbs, flooded: true };
+  return 0.5 * (lo + hi);
 }

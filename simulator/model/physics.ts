@@ -3,7 +3,7 @@
  * suction line and liquid line. Explicit Euler with first-order lags; dt ≤ 2 s.
  */
 import type { BoxModel } from './box';
-import { coilInletC, meanCoilC, solveEvaporator, superheatFromDryFraction } from './evaporator';
+import { coilInletC, evaporatorTargetKPaAbs, meanCoilC, superheatFromDryFraction } from './evaporator';
 import {
   DOOR_AJAR_FRACTION,
   ICED_COIL_BLOCKED_FRACTION,
@@ -101,26 +101,30 @@ export function stepPhysics(
   const s = box.phys;
   const fluid = box.fluid;
   const faults = box.faults;
+  // Most steps run with no fault at all: one size test instead of a lookup per fault.
+  const anyFault = faults.size > 0;
   s.ambientC = ambientC(p.ambientMeanC, p.ambientSwingK, hour);
 
   // Door: the schedule, or held ajar by a fault.
-  const ajar = faults.has('door-ajar');
+  const ajar = anyFault && faults.has('door-ajar');
   s.doorOpen = scheduledDoorOpen || ajar;
   const doorFraction = scheduledDoorOpen ? 1 : ajar ? DOOR_AJAR_FRACTION : 0;
 
   // Coil conductances: air side (fans, frost, ice) and refrigerant side (tubes, always clean).
-  const iced = faults.get('iced-coil');
+  const iced = anyFault ? faults.get('iced-coil') : undefined;
   s.iceBlockedFraction = iced ? ICED_COIL_BLOCKED_FRACTION * Math.min(1, (box.tS - iced.sinceS) / ICED_COIL_BUILD_S) : 0;
   const airflow = out.fansMoveAir ? 1 : p.naturalConvectionFraction;
   const uaAirWPerK = (p.coilUAWPerK * airflow * (1 - s.iceBlockedFraction)) / (1 + s.frostKg / p.frostHalfKg);
   const uaRefWPerK = REFRIGERANT_SIDE_UA_RATIO * p.coilUAWPerK;
 
   // Valve feed, W of refrigerating effect: opening × capacity × liquid available × √(ΔP / design ΔP).
-  const lowCharge = faults.has('low-charge');
+  const lowCharge = anyFault && faults.has('low-charge');
   const liquid = lowCharge ? LOW_CHARGE_LIQUID_FRACTION : 1;
   const dpFactor = Math.sqrt(Math.max(0, s.liquidKPaAbs - s.suctionKPaAbs) / box.designValveDeltaKPa);
-  const leakW = faults.has('valve-leak-through') ? LEAK_THROUGH_FRACTION * p.compressorRatedW * dpFactor : 0;
-  const openW = box.feedOpen ? box.valveFraction * p.compressorRatedW * p.valveCapacityRatio * liquid * dpFactor * feedJitter : 0;
+  const leakW = anyFault && faults.has('valve-leak-through') ? LEAK_THROUGH_FRACTION * p.compressorRatedW * dpFactor : 0;
+  const feedOpen = box.feedOpen;
+  const valveFraction = box.valveFraction;
+  const openW = feedOpen ? valveFraction * p.compressorRatedW * p.valveCapacityRatio * liquid * dpFactor * feedJitter : 0;
   const valveW = openW + leakW;
   // Liquid held in the coil: it fills while the valve passes liquid with the compressor stopped and
   // boils off once it runs (this is what carries a start and makes a pump-down take a minute).
@@ -138,13 +142,13 @@ export function stepPhysics(
   // Low-side pressure.
   if (box.compressorOn) {
     // Running: the compressor sets the low side; in a pump-down only the coil's inventory still feeds it.
-    const evap = solveEvaporator({ fluid, sourceC: s.coilC, uaWPerK: uaRefWPerK, feedW, compressorRatedW: p.compressorRatedW, ratedKPaAbs: box.ratedSuctionKPaAbs });
-    s.suctionKPaAbs = lag(s.suctionKPaAbs, evap.targetKPaAbs, dtS, TAU.runKPa);
+    const targetKPaAbs = evaporatorTargetKPaAbs(fluid, s.coilC, uaRefWPerK, feedW, p.compressorRatedW, box.ratedSuctionKPaAbs);
+    s.suctionKPaAbs = lag(s.suctionKPaAbs, targetKPaAbs, dtS, TAU.runKPa);
   } else {
     const pKPa = s.suctionKPaAbs;
     const equalKPa = fluid.dewKPaAbs(s.coilC);
     let next = pKPa;
-    if (box.feedOpen && box.valveFraction > 0.01) next = lag(next, equalKPa, dtS, TAU.equaliseKPa);
+    if (feedOpen && valveFraction > 0.01) next = lag(next, equalKPa, dtS, TAU.equaliseKPa);
     else if (pKPa > equalKPa) next = lag(next, equalKPa, dtS, TAU.equaliseKPa * 4);
     else next = lag(next, Math.min(equalKPa, Math.max(pKPa, box.creepKPaAbs())), dtS, TAU.creepKPa);
     if (leakW > 0) next += (equalKPa - pKPa) * Math.min(1, dtS / TAU.leakKPa);
@@ -152,6 +156,7 @@ export function stepPhysics(
   }
 
   // Refrigerant boiling against the coil metal, and the suction line it leaves by.
+  const heaterWorks = !(anyFault && faults.has('defrost-heater-failed'));
   const pKPa = s.suctionKPaAbs;
   const dewC = fluid.dewC(pKPa);
   let refW = 0;
@@ -164,14 +169,14 @@ export function stepPhysics(
     const spanK = Math.max(s.airC, s.coilC) - dewC;
     s.suctionLineC = lag(s.suctionLineC, dewC + superheatFromDryFraction(spanK, dry), dtS, TAU.suctionLine);
   } else {
-    const heating = out.heat && !faults.has('defrost-heater-failed');
+    const heating = heaterWorks && out.heat;
     // Pump-down: vapour still flows past the cold coil; stopped: the line settles toward box air.
     const lineTarget = box.compressorOn ? Math.max(dewC, s.coilC) : heating ? 0.5 * (s.coilC + s.airC) : s.airC;
     s.suctionLineC = lag(s.suctionLineC, lineTarget, dtS, box.compressorOn ? TAU.suctionLine : TAU.suctionLineOff);
   }
 
   // Coil metal: air, heaters, boiling refrigerant; frost holds it at 0 °C while it melts.
-  const heaterW = out.heat && !faults.has('defrost-heater-failed') ? p.defrostHeatW : 0;
+  const heaterW = out.heat && heaterWorks ? p.defrostHeatW : 0;
   const airToCoilW = uaAirWPerK * (s.airC - s.coilC);
   const netW = airToCoilW + heaterW - refW;
   const coilJPerK = p.coilMassKJPerK * 1000;

@@ -36,6 +36,10 @@ export class Disturbances {
   private doorOpenUntilS = -1;
   /** Slow wander of liquid feed (flash gas, head-pressure swings): AR(1), 3 % at 1 σ, ~60 s correlation. */
   private jitter = 0;
+  /** The AR(1) factors for the last step length (every step but a short last one has the same dtS, so exp and sqrt run once). */
+  private jitterDtS = Number.NaN;
+  private jitterA = 0;
+  private jitterNoise = 0;
   constructor(
     private readonly rng: SeededRng,
     private readonly doorPeakPerH: number,
@@ -52,8 +56,13 @@ export class Disturbances {
 
   /** Advances to tS (after a step of dtS) at the given hour; returns a delivery if one arrived. */
   step(tS: number, dtS: number, hour: number): Delivery | null {
-    const a = Math.exp(-dtS / 60);
-    this.jitter = Math.max(-0.2, Math.min(0.2, a * this.jitter + Math.sqrt(1 - a * a) * this.rng.normal(0, 0.03)));
+    if (dtS !== this.jitterDtS) {
+      this.jitterDtS = dtS;
+      this.jitterA = Math.exp(-dtS / 60);
+      this.jitterNoise = Math.sqrt(1 - this.jitterA * this.jitterA);
+    }
+    const a = this.jitterA;
+    this.jitter = Math.max(-0.2, Math.min(0.2, a * this.jitter + this.jitterNoise * this.rng.normal(0, 0.03)));
     const rate = this.doorPeakPerH * (KITCHEN_DOOR_PROFILE[Math.floor(hour) % 24] ?? 0);
     const uDoor = this.rng.next();
     const uDuration = this.rng.next();

@@ -1,5 +1,5 @@
 import type { Page } from '@shared/schemas/common';
-import type { BoxCreateBody, BoxDto, BoxUpdateBody, ControllerCreateBody, ControllerSummary } from '@shared/schemas/boxes';
+import type { BoxCreateBody, BoxDto, BoxUpdateBody, ControllerCreateBody, ControllerSummary, ControllerUpdateBody } from '@shared/schemas/boxes';
 import type { ReadingDto, ReadingsResponse, Resolution } from '@shared/schemas/live';
 import type { BoxSettingsBody, SettingsChangeDto } from '@shared/schemas/settings';
 import { http, type Query } from './http';
@@ -11,8 +11,8 @@ export interface ProvisionAnswer {
 }
 
 export const boxesApi = {
-  /** `siteId` filters to one site. */
-  list: (q: Query & { siteId?: number | null } = {}) => http.get<Page<BoxDto>>('/boxes', q),
+  /** `siteId` filters to one site; `hasController: 'false'` keeps the boxes still without a controller. */
+  list: (q: Query & { siteId?: number | null; hasController?: 'true' | 'false' } = {}) => http.get<Page<BoxDto>>('/boxes', q),
   get: (id: number) => http.get<BoxDto>(`/boxes/${id}`),
   create: (body: BoxCreateBody) => http.post<BoxDto>('/boxes', body),
   update: (id: number, body: BoxUpdateBody) => http.patch<BoxDto>(`/boxes/${id}`, body),
@@ -24,7 +24,23 @@ export const boxesApi = {
   settingsChanges: (id: number) => http.get<SettingsChangeDto[]>(`/boxes/${id}/settings/changes`),
 };
 
+/** A row of GET /controllers (server/controllers/service.ts `ControllerListItem`): the summary and where it is installed. */
+export interface ControllerListItem extends ControllerSummary {
+  boxId: number;
+  boxName: string;
+  siteId: number;
+  siteName: string;
+  customerId: number;
+  customerName: string;
+  secretRotatedAt: string | null;
+  createdAt: string;
+}
+
 export const controllersApi = {
+  /** Admin list; `boxId` and `customerId` filter, `q` searches serial, box and site. */
+  list: (q: Query & { boxId?: number; customerId?: number } = {}) => http.get<Page<ControllerListItem>>('/controllers', q),
+  /** Changes the declared transducer reference. */
+  update: (id: number, body: ControllerUpdateBody) => http.patch<ControllerSummary>(`/controllers/${id}`, body),
   provision: (body: ControllerCreateBody) => http.post<ProvisionAnswer>('/controllers', body),
   rotateSecret: (id: number) => http.post<ProvisionAnswer>(`/controllers/${id}/rotate-secret`),
   disable: (id: number) => http.post<ControllerSummary>(`/controllers/${id}/disable`),

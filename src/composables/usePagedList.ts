@@ -7,6 +7,17 @@ export interface PageArgs {
   page: number;
   pageSize: number;
   q?: string;
+  /** A sort name the endpoint whitelists, sent only once a column header was clicked. */
+  sort?: string;
+  order?: SortOrder;
+}
+
+export type SortOrder = 'asc' | 'desc';
+
+/** The sort state in NDataTable's terms (`ascend` / `descend` / false). */
+export interface TableSorter {
+  columnKey: string | number;
+  order: 'ascend' | 'descend' | false;
 }
 
 export function usePagedList<T>(fetcher: (args: PageArgs) => Promise<Page<T>>, opts: { pageSize?: number; deps?: Ref<unknown>[] } = {}) {
@@ -16,13 +27,16 @@ export function usePagedList<T>(fetcher: (args: PageArgs) => Promise<Page<T>>, o
   const error = ref<string | null>(null);
   const q = ref('');
   const state = reactive({ page: 1, pageSize: opts.pageSize ?? 25 });
+  const sort = ref<{ key: string; order: SortOrder } | null>(null);
   let seq = 0;
 
   async function reload() {
     const my = ++seq;
     loading.value = true;
     try {
-      const res = await fetcher({ page: state.page, pageSize: state.pageSize, q: q.value.trim() || undefined });
+      const args: PageArgs = { page: state.page, pageSize: state.pageSize, q: q.value.trim() || undefined };
+      if (sort.value) Object.assign(args, { sort: sort.value.key, order: sort.value.order });
+      const res = await fetcher(args);
       if (my !== seq) return;
       items.value = res.items;
       total.value = res.total;
@@ -71,5 +85,24 @@ export function usePagedList<T>(fetcher: (args: PageArgs) => Promise<Page<T>>, o
     },
   }));
 
-  return { items, total, loading, error, q, state, reload, pagination };
+  /** Sorts by a column (null: the endpoint's default order) and goes back to the first page. */
+  function setSort(key: string | null, order: SortOrder = 'asc') {
+    sort.value = key ? { key, order } : null;
+    state.page = 1;
+    void reload();
+  }
+  /** NDataTable's `update:sorter` handler. */
+  function onSorter(s: TableSorter | null) {
+    if (!s || s.order === false) setSort(null);
+    else setSort(String(s.columnKey), s.order === 'descend' ? 'desc' : 'asc');
+  }
+  /** The column's sort order for NDataTable's controlled `sortOrder`. */
+  function sortOrderOf(key: string): 'ascend' | 'descend' | false {
+    return sort.value?.key === key ? (sort.value.order === 'desc' ? 'descend' : 'ascend') : false;
+  }
+
+  return { items, total, loading, error, q, state, sort, reload, pagination, setSort, onSorter, sortOrderOf };
 }
+
+/** What a list page holds: the state and actions of usePagedList. */
+export type PagedList<T> = ReturnType<typeof usePagedList<T>>;

@@ -17,7 +17,7 @@ import type {
 import type { ReadingPoint } from '@shared/schemas/live';
 import type { PeriodIso } from '@shared/schemas/cycles';
 import type { AlarmPriority } from '@shared/alarms/types';
-import { COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K, temperatureDeltaForDisplay, temperatureDeltaUnit, temperatureForDisplay, temperatureUnit, type UnitSystem } from '@shared/field';
+import { EVAPORATOR_SUPERHEAT_FLOOR_K, temperatureDeltaForDisplay, temperatureDeltaUnit, temperatureForDisplay, temperatureUnit, type UnitSystem } from '@shared/field';
 import { SUPERHEAT_HIGH_BAND_K, SUPERHEAT_LOW_BAND_K } from '@shared/rules/defaults';
 
 export type ChartOption = ComposeOption<
@@ -78,7 +78,7 @@ export function mergeZoomed(overview: readonly ReadingPoint[], fine: readonly Re
 
 /** The superheat band without a superheat alarm, K: the superheat-low and superheat-high thresholds of shared/rules/defaults. */
 export function superheatBandK(targetK: number): { lowK: number; targetK: number; highK: number } {
-  return { lowK: Math.min(COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K, targetK - SUPERHEAT_LOW_BAND_K), targetK, highK: targetK + SUPERHEAT_HIGH_BAND_K };
+  return { lowK: Math.min(EVAPORATOR_SUPERHEAT_FLOOR_K, targetK - SUPERHEAT_LOW_BAND_K), targetK, highK: targetK + SUPERHEAT_HIGH_BAND_K };
 }
 
 export interface AlarmMark {

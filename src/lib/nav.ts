@@ -33,6 +33,13 @@ export const NAV: NavGroup[] = [
     ],
   },
   {
+    label: 'Records',
+    items: [
+      { name: 'food-log', label: 'Food-safety log', icon: 'thermometer' },
+      { name: 'trends', label: 'Trends', icon: 'drift' },
+    ],
+  },
+  {
     label: 'Customers & boxes',
     items: [
       { name: 'customers', label: 'Customers', icon: 'customers', roles: ['admin', 'technician'] },

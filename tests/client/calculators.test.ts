@@ -44,12 +44,13 @@ describe('PressureTemperatureView', () => {
     expect(Math.abs(firstNumber(testText(w, 'pt-dew')) - 40)).toBeLessThanOrEqual(0.4);
   });
 
-  it('reads gauge pressure against the thinner air of a high site', async () => {
+  it('reads gauge pressure against the thinner air of a high site, the elevation given in feet', async () => {
     const w = await open(PressureTemperatureView, '/tools/pressure-temperature', { refrigerant: 'R-134a' });
     // Altitude table, TRADE-NOTES #24: 12.2 psia at 5,000 ft (1,524 m), i.e. a gauge reads 2.5 psi higher than at
     // sea level for the same absolute pressure. So 9.0 psig there = 6.5 psig at sea level = 0 °F for R-134a
     // (TRADE-NOTES #19). Tolerance ±0.8 °F: ±0.3 psi chart + ±0.1 psi table ≈ ±0.4 psi at ~0.5 psi/°F.
-    await w.find('[data-test="pt-elevation"]').setValue('1524');
+    // An imperial user enters the elevation in feet, like the pressures in psig.
+    await w.find('[data-test="pt-elevation"]').setValue('5000');
     await w.find('[data-test="pt-pressure"]').setValue('9.0');
     await flushPromises();
     expect(Math.abs(firstNumber(testText(w, 'pt-dew')) - 0)).toBeLessThanOrEqual(0.8);

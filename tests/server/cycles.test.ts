@@ -167,13 +167,16 @@ describe('cycle timers from a synthetic trace', () => {
 
 describe('GET /boxes/:id/cycles', () => {
   it('answers the timers of a visible box, with the shaded periods of a span', async () => {
-    const { box } = await newBox('UTC');
+    const { box } = await newBox('America/Chicago');
     const now = Math.floor(Date.now() / 1000) * 1000;
     const start = now - 20 * MIN;
     await insertTrace(box.id, start, now - 10_000, 10_000, (t) => ({ compressorOn: t >= now - 5 * MIN, defrostOn: false, doorOpen: within(t, now - 15 * MIN, now - 12 * MIN) }));
     const tech = await factories(srv).user('technician');
     const { agent } = await signIn(srv, tech.email, tech.password);
     const res = await agent.get(`/api/v1/boxes/${box.id}/cycles`).query({ from: new Date(start).toISOString(), to: new Date(now).toISOString() }).expect(200);
+    // The site's own zone decides "today".
+    expect(res.body.timeZone).toBe('America/Chicago');
+    expect(res.body.door.dayStartAt).toBe(new Date(siteDayBounds(now, 'America/Chicago').startMs).toISOString());
     expect(res.body.compressor.on).toBe(true);
     expect(res.body.compressor.sinceAt).toBe(new Date(now - 5 * MIN).toISOString());
     expect(res.body.door.open).toBe(false);
