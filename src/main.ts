@@ -10,6 +10,7 @@ import { installHttpWiring } from './api/wiring';
 import { initDiscrete } from './lib/discrete';
 import { setLiveResync } from './composables/useLive';
 import { useFleetStore } from './stores/fleet';
+import { installA11yFixes } from './lib/a11yFixes';
 
 const pinia = createPinia();
 const router = createAppRouter(pinia);
@@ -28,3 +29,4 @@ router.onError(() => {
 });
 
 createApp(App).use(pinia).use(router).mount('#app');
+installA11yFixes();

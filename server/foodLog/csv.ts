@@ -45,8 +45,8 @@ export function foodLogCsv(log: FoodLogDto): string {
   for (const d of log.days) {
     for (const s of d.scheduled) lines.push(row([d.day, s.label, t(s.readingAt) ?? 'no reading', c1(s.boxAirC), f1(s.boxAirC), d.source]));
   }
-  lines.push('', row(['Daily minimum and maximum']), row(['day', 'min °C', 'max °C', 'min °F', 'max °F', 'source', 'signed off by', 'signed off at (local)']));
-  for (const d of log.days) lines.push(row([d.day, c1(d.minC), c1(d.maxC), f1(d.minC), f1(d.maxC), d.source, d.signedOff?.byName ?? 'not signed', t(d.signedOff?.at ?? null)]));
+  lines.push('', row(['Daily minimum and maximum']), row(['day', 'min °C', 'max °C', 'min °F', 'max °F', 'source', 'readings left out (box-air sensor flagged)', 'signed off by', 'signed off at (local)']));
+  for (const d of log.days) lines.push(row([d.day, c1(d.minC), c1(d.maxC), f1(d.minC), f1(d.maxC), d.source, d.doubtedReadings, d.signedOff?.byName ?? 'not signed', t(d.signedOff?.at ?? null)]));
   lines.push('', row(['Excursions above the limit']), row(['day', 'start (local)', 'end (local)', 'duration min', 'peak °C', 'peak °F', 'note']));
   for (const d of log.days) {
     for (const e of d.excursions) {

@@ -79,7 +79,7 @@ export function foodLogPdf(log: FoodLogDto, opts: { compress?: boolean } = {}): 
     ensure(80);
     doc.moveTo(MARGIN, doc.y).lineTo(MARGIN + width, doc.y).stroke();
     doc.moveDown(0.3).font('Helvetica-Bold').fontSize(11);
-    text(`${d.day}  -  ${SOURCE_WORDS[d.source]}`);
+    text(`${d.day}  -  ${SOURCE_WORDS[d.source]}${d.doubtedReadings ? ` (${d.doubtedReadings} readings left out: box-air sensor flagged)` : ''}`);
     doc.font('Helvetica').fontSize(9);
     text(`Min ${temp(d.minC)}   Max ${temp(d.maxC)}   ${d.signedOff ? `Signed off by ${d.signedOff.byName} at ${t(d.signedOff.at)}` : 'Not signed off'}`);
     doc.moveDown(0.2);

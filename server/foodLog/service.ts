@@ -221,7 +221,7 @@ export async function foodLogOf(ctx: AppContext, fb: FoodLogBox, q: FoodLogQuery
     toleranceMin: SCHEDULE_TOLERANCE_MS / 60_000,
     statement: `${CAUTIONS.foodSafety.text} The box-air figures here are a record of the equipment, not a compliance finding.`,
     sourceNote:
-      'Figures come from the stored box-air readings: raw readings (every reading as sent) while they are kept, 1-minute rollups (mean, min, max per minute) for older days; each day says which. ' +
+      'Figures come from the stored box-air readings: raw readings (every reading as sent) while they are kept, 1-minute rollups (mean, min, max per minute) for older days; each day says which. Raw readings whose box-air sensor is flagged (open, shorted, implausible, stuck) are left out and counted. ' +
       'An excursion runs from the first figure above the limit to the first one back at or below it.',
     days: dayDtos,
   };

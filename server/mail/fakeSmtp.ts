@@ -25,6 +25,9 @@ function parseMessage(raw: string): { subject: string; text: string } {
   let text = body;
   if (boundary) {
     const part = body.split(`--${boundary}`).find((p) => /content-type: text\/plain/i.test(p));
+    // A mail with attachments nests the text/html alternatives in a multipart part: read that part.
+    const partHead = part ? part.slice(0, Math.max(0, part.indexOf('\r\n\r\n'))) : '';
+    if (part && /content-type:\s*multipart\//i.test(partHead)) return { subject: decodeHeader(subject), text: parseMessage(part.replace(/^\r\n/, '')).text };
     if (part) text = part.slice(part.indexOf('\r\n\r\n') + 4);
   }
   if (/quoted-printable/i.test(boundary ? text : unfolded) || /=\r\n/.test(text)) {

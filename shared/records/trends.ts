@@ -413,8 +413,3 @@ export function findings(inp: FindingInput): TrendFindingDto[] {
   }
   return out;
 }
-
-/** The week's defrost periods that start within [startMs, endMs). */
-export function defrostsWithin(periods: readonly DefrostPeriod[], startMs: number, endMs: number): DefrostPeriod[] {
-  return periods.filter((p) => p.startMs >= startMs && p.startMs < endMs);
-}

@@ -90,15 +90,66 @@ export function evaporatorTargetKPaAbs(fluid: Fluid, sourceC: number, uaWPerK: n
   return floodedKPaAbs(fluid, sourceC, uaWPerK, compressorRatedW, ratedKPaAbs, floorKPa, feedKPa);
 }
 
-/** Flooded: the coil, not the valve, limits. Bisects for P (kPa abs) where compressor flow = UA · (T_metal − T_mean(P)). */
+/**
+ * Flooded: the coil, not the valve, limits. Bisects (40 halvings) for P, kPa abs, where compressor
+ * flow = UA · (T_metal − T_mean(P)).
+ *
+ * Speed without changing the answer: the excess of compressor flow over what the coil boils rises
+ * with P (the flow rises, the coil's pull falls as T_mean rises), so a halving point at or above a
+ * point already found in excess is in excess too, and one at or below a point found short is short.
+ * A few regula-falsi (Illinois) evaluations first pin the root between two such points; the
+ * bisection then takes the same 40 decisions, evaluating only the points that fall between them.
+ */
 function floodedKPaAbs(fluid: Fluid, sourceC: number, uaWPerK: number, compressorRatedW: number, ratedKPaAbs: number, floorKPa: number, feedKPa: number): number {
+  const excessW = (p: number): number => (compressorRatedW * p) / ratedKPaAbs - uaWPerK * Math.max(0, sourceC - meanCoilC(fluid, p));
   let lo = floorKPa;
   let hi = Math.max(feedKPa, floorKPa * 1.01);
+  // Highest point known short (excess ≤ 0) and lowest point known in excess (> 0).
+  let shortKPa = -Infinity;
+  let excessKPa = Infinity;
+  let a = lo;
+  let fa = excessW(a);
+  let b = hi;
+  let fb = excessW(b);
+  if (fa > 0) excessKPa = a;
+  else shortKPa = a;
+  if (fb > 0) excessKPa = Math.min(excessKPa, b);
+  else shortKPa = Math.max(shortKPa, b);
+  if (fa <= 0 && fb > 0) {
+    let side = 0;
+    for (let i = 0; i < PRESOLVE_EVALUATIONS; i++) {
+      const c = (a * fb - b * fa) / (fb - fa);
+      if (!(c > a && c < b)) break;
+      const fc = excessW(c);
+      if (fc > 0) {
+        b = c;
+        fb = fc;
+        excessKPa = c;
+        if (side === -1) fa *= 0.5;
+        side = -1;
+      } else {
+        a = c;
+        fa = fc;
+        shortKPa = c;
+        if (side === 1) fb *= 0.5;
+        side = 1;
+      }
+    }
+  }
   for (let i = 0; i < 40; i++) {
     const mid = 0.5 * (lo + hi);
-    const excessW = (compressorRatedW * mid) / ratedKPaAbs - uaWPerK * Math.max(0, sourceC - meanCoilC(fluid, mid));
-    if (excessW > 0) hi = mid;
-    else lo = mid;
+    if (mid >= excessKPa) hi = mid;
+    else if (mid <= shortKPa) lo = mid;
+    else if (excessW(mid) > 0) {
+      hi = mid;
+      excessKPa = mid;
+    } else {
+      lo = mid;
+      shortKPa = mid;
+    }
   }
   return 0.5 * (lo + hi);
 }
+
+/** Regula-falsi evaluations before the bisection (a handful brings the bracket near rounding level). */
+const PRESOLVE_EVALUATIONS = 8;

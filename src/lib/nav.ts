@@ -35,6 +35,8 @@ export const NAV: NavGroup[] = [
   {
     label: 'Records',
     items: [
+      { name: 'visits', label: 'Service visits', icon: 'wrench' },
+      { name: 'refrigerant-log', label: 'Refrigerant log', icon: 'gauge' },
       { name: 'food-log', label: 'Food-safety log', icon: 'thermometer' },
       { name: 'trends', label: 'Trends', icon: 'drift' },
     ],

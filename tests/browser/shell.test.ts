@@ -36,12 +36,17 @@ afterAll(async () => {
 
 // What each role may reach, from src/lib/nav.ts and the route roles in src/router/routes.ts.
 const PRIMARY = ['nav-fleet', 'nav-alarms', 'nav-tool-pt', 'nav-tool-superheat'];
+const RECORDS = ['Service visits', 'Refrigerant log', 'Food-safety log', 'Trends'];
 const SECONDARY: Record<Role, string[]> = {
-  manager: [],
-  technician: ['Customers', 'Sites', 'Boxes'],
-  admin: ['Customers', 'Sites', 'Boxes', 'Import', 'Users', 'Controllers', 'Dev mailbox', 'Push inbox'],
+  manager: [...RECORDS],
+  technician: [...RECORDS, 'Customers', 'Sites', 'Boxes'],
+  admin: [...RECORDS, 'Customers', 'Sites', 'Boxes', 'Import', 'Users', 'Controllers', 'Dev mailbox', 'Push inbox'],
 };
 const SECONDARY_TEST_IDS: Record<string, string> = {
+  'Service visits': 'nav-visits',
+  'Refrigerant log': 'nav-refrigerant-log',
+  'Food-safety log': 'nav-food-log',
+  Trends: 'nav-trends',
   Customers: 'nav-customers',
   Sites: 'nav-sites',
   Boxes: 'nav-boxes',

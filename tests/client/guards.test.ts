@@ -72,12 +72,13 @@ describe('route guards', () => {
 });
 
 describe('navigation by role', () => {
+  const RECORDS = ['visits', 'refrigerant-log', 'food-log', 'trends'];
   const names = (role: Role, devMailbox = false) => navFor(role, { demoMode: false, devMailbox }).flatMap((g) => g.items.map((i) => i.name));
-  it('shows managers the fleet and field tools only', () => {
-    expect(names('manager')).toEqual(['fleet', 'alarms', 'tool-pt', 'tool-superheat']);
+  it('shows managers the fleet, the field tools and the records only', () => {
+    expect(names('manager')).toEqual(['fleet', 'alarms', 'tool-pt', 'tool-superheat', ...RECORDS]);
   });
   it('adds customers, sites and boxes for technicians', () => {
-    expect(names('technician')).toEqual(['fleet', 'alarms', 'tool-pt', 'tool-superheat', 'customers', 'sites', 'boxes']);
+    expect(names('technician')).toEqual(['fleet', 'alarms', 'tool-pt', 'tool-superheat', ...RECORDS, 'customers', 'sites', 'boxes']);
   });
   it('adds users and controllers for admins, and the mailbox only when the server has it', () => {
     expect(names('admin')).toContain('users');

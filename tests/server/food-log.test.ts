@@ -163,6 +163,24 @@ describe('the day view', () => {
     expectStatus(await put(admin, `/api/v1/food-log/sites/${siteId}/settings`, { foodLogIntervalH: 4 }), 200);
   });
 
+  it('leaves out raw readings whose box-air sensor is flagged, counts them, and raises no excursion from them', async () => {
+    const day = addDays(rawDay, 2);
+    const d0 = localDayBounds(day, TZ).startMs;
+    await insertRawDay(boxId, day, () => 3);
+    // Five readings of a shorted box-air thermistor (150 °C, flagged by the ingest) at 10:00–10:04 local.
+    const flags = JSON.stringify([{ code: 'sensor-shorted', sensor: 'boxAirC', affects: ['boxAirC'], message: 'Box-air sensor shorted' }]);
+    await srv.ctx.sequelize.query('UPDATE readings SET box_air_c = 150, quality_flags = ? WHERE box_id = ? AND ts >= ? AND ts < ?', {
+      replacements: [flags, boxId, sqlTs(d0 + 10 * HOUR), sqlTs(d0 + 10 * HOUR + 5 * MIN)],
+    });
+    const res = await call(managerA, 'get', logUrl(boxId, day, day));
+    expectStatus(res, 200);
+    const d = res.body.days[0];
+    expect(d.source).toBe('raw');
+    expect(d.doubtedReadings).toBe(5);
+    expect(d.maxC).toBe(3);
+    expect(d.excursions).toEqual([]);
+  });
+
   it('refuses a period longer than 31 days with a validation problem', async () => {
     expectProblem(await call(managerA, 'get', logUrl(boxId, '2026-01-01', '2026-02-01')), 400, 'validation');
   });

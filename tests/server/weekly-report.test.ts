@@ -8,6 +8,8 @@ import { factories, startTestServer } from './helpers/app';
 import { call, expectProblem, signInRoles, type Sessions } from './helpers/roles';
 import { isReportDue, runWeeklyReports } from '../../server/reports/weekly';
 import { loadConfig } from '../../server/config';
+import cron from 'node-cron';
+import { scheduleWeeklyReports, WEEKLY_REPORT_CRON } from '../../server/reports/cron';
 
 let srv: RunningServer;
 let s: Sessions;
@@ -98,6 +100,15 @@ describe('the weekly report job', () => {
     expect(isReportDue(RUN_AT, 'America/Chicago')).toBe(false); // 00:10 local
   });
 
+  it('registers an hourly job in UTC when enabled, and stop() removes it', async () => {
+    const stop = scheduleWeeklyReports(srv.ctx);
+    const task = [...cron.getTasks().values()].find((t) => t.name === 'weekly-reports');
+    expect(task?.getPattern()).toBe(WEEKLY_REPORT_CRON);
+    expect(task?.getNextRun()?.getUTCMinutes()).toBe(0);
+    await stop();
+    expect([...cron.getTasks().values()].some((t) => t.name === 'weekly-reports')).toBe(false);
+  });
+
   it('sends one report per recipient once, even when triggered twice at the same time and again after', async () => {
     failNextFor = secondManagerEmail;
     await Promise.all([runWeeklyReports(srv.ctx, RUN_AT), runWeeklyReports(srv.ctx, RUN_AT)]);
@@ -134,7 +145,10 @@ describe('the weekly report job', () => {
     expect(svg).toMatchObject({ filename: 'week-chart.svg', contentType: 'image/svg+xml' });
     expect(String(svg?.content)).toMatch(/^<svg[\s\S]*<\/svg>$/);
     // The fake SMTP server received the same figures.
-    expect(boxesOf(managerEmail)[0]?.text).toContain('Time in range: 95.8 %');
+    const inbox = boxesOf(managerEmail)[0]?.text ?? '';
+    expect(inbox).toContain('Time in range: 95.8 %');
+    // ...as the text part alone (the HTML part and the SVG attachment are not shown as text)
+    expect(inbox).not.toMatch(/<table|<svg|Content-Type/i);
   });
 
   it('sends again to a recipient whose row a crashed run left sending', async () => {
