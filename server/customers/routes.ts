@@ -1,5 +1,5 @@
 /** /api/v1/customers: list and get for every role (a manager sees only their own); writes admin only. */
-import { Router } from 'express';
+import { Router, type Request } from 'express';
 import { CustomerBody, type CustomerDto } from '../../shared/schemas/customers';
 import type { AppContext } from '../context';
 import type { Customer } from '../models';
@@ -7,12 +7,15 @@ import { currentUser, requireAuth, requireRole } from '../auth/guards';
 import { parseBody, parseId } from '../http/validate';
 import { parseListQuery } from '../http/list';
 import { sentFields } from '../http/patch';
-import { audit } from '../audit/service';
-import { CUSTOMER_LIST, createCustomer, deleteCustomer, listCustomers, loadScopedCustomer, siteCountsOf, toCustomerDto, updateCustomer } from './service';
+import { CUSTOMER_LIST, createCustomer, deleteCustomer, listCustomers, loadScopedCustomer, siteCountsOf, toCustomerDto, updateCustomer, type CustomerActor } from './service';
 
 export { toCustomerDto } from './service';
 
 const CustomerPatchBody = CustomerBody.partial();
+
+function actorOf(req: Request): CustomerActor {
+  return { user: currentUser(req), userId: currentUser(req).id, requestId: typeof req.id === 'string' ? req.id : null };
+}
 
 /** The customers router. */
 export function customerRoutes(ctx: AppContext): Router {
@@ -35,24 +38,17 @@ export function customerRoutes(ctx: AppContext): Router {
 
   r.post('/', requireRole('admin'), async (req, res) => {
     const body = parseBody(CustomerBody, req);
-    const c = await createCustomer(models, body);
-    await audit(models, req, { action: 'customer.create', entityType: 'customer', entityId: c.id, customerId: c.id, detail: { name: c.name } });
-    res.status(201).json(toCustomerDto(c, 0));
+    res.status(201).json(await createCustomer(models, actorOf(req), body));
   });
 
   r.patch('/:id', requireRole('admin'), async (req, res) => {
     const id = parseId(req);
     const changes = sentFields(parseBody(CustomerPatchBody, req), req.body);
-    const c = await loadScopedCustomer(models, currentUser(req), id);
-    await updateCustomer(models, c, changes);
-    await audit(models, req, { action: 'customer.update', entityType: 'customer', entityId: c.id, customerId: c.id, detail: changes });
-    res.json(await present(c));
+    res.json(await updateCustomer(models, actorOf(req), { id, changes }));
   });
 
   r.delete('/:id', requireRole('admin'), async (req, res) => {
-    const c = await loadScopedCustomer(models, currentUser(req), parseId(req));
-    await deleteCustomer(models, c);
-    await audit(models, req, { action: 'customer.delete', entityType: 'customer', entityId: c.id, customerId: c.id, detail: { name: c.name } });
+    await deleteCustomer(models, actorOf(req), parseId(req));
     res.status(204).end();
   });
 

@@ -7,6 +7,12 @@ import type { Customer, Models } from '../models';
 import { scopeWhere } from '../auth/guards';
 import { problems } from '../http/problem';
 import { defineList, runList, type ListInputOf } from '../http/list';
+import { auditBy, type AuditActor } from '../audit/service';
+
+/** Who acts on customers: the signed-in user and the request id, for the audit trail. */
+export interface CustomerActor extends AuditActor {
+  user: SessionUser;
+}
 
 /** Presents a customer row with its number of sites. */
 export function toCustomerDto(c: Customer, siteCount: number): CustomerDto {
@@ -82,30 +88,39 @@ async function assertNameFree(models: Models, name: string, exceptId?: number): 
   if (other && other.id !== exceptId) throw duplicateName(name);
 }
 
-/** Creates a customer; 409 when the name is taken. */
-export async function createCustomer(models: Models, body: CustomerBody): Promise<Customer> {
+/** Creates a customer and audits it; 409 when the name is taken. */
+export async function createCustomer(models: Models, actor: CustomerActor, body: CustomerBody): Promise<CustomerDto> {
   await assertNameFree(models, body.name);
+  let c: Customer;
   try {
-    return await models.Customer.create(body);
+    c = await models.Customer.create(body);
   } catch (err) {
     if (err instanceof UniqueConstraintError) throw duplicateName(body.name);
     throw err;
   }
+  await auditBy(models, actor, { action: 'customer.create', entityType: 'customer', entityId: c.id, customerId: c.id, detail: { name: c.name } });
+  return toCustomerDto(c, 0);
 }
 
-/** Applies the sent fields to a customer; 409 when the new name is taken. */
-export async function updateCustomer(models: Models, c: Customer, changes: Partial<CustomerBody>): Promise<Customer> {
+/** Applies the sent fields to a customer the actor may see and audits it; 404 outside the tenant, 409 when the new name is taken. */
+export async function updateCustomer(models: Models, actor: CustomerActor, input: { id: number; changes: Partial<CustomerBody> }): Promise<CustomerDto> {
+  const { changes } = input;
+  const c = await loadScopedCustomer(models, actor.user, input.id);
   if (changes.name !== undefined) await assertNameFree(models, changes.name, c.id);
   try {
-    return await c.update(changes);
+    await c.update(changes);
   } catch (err) {
     if (err instanceof UniqueConstraintError) throw duplicateName(changes.name ?? c.name);
     throw err;
   }
+  await auditBy(models, actor, { action: 'customer.update', entityType: 'customer', entityId: c.id, customerId: c.id, detail: changes });
+  const counts = await siteCountsOf(models, [c.id]);
+  return toCustomerDto(c, counts.get(c.id) ?? 0);
 }
 
-/** Deletes a customer that has no sites and no users left; 409 otherwise. */
-export async function deleteCustomer(models: Models, c: Customer): Promise<void> {
+/** Deletes a customer the actor may see that has no sites and no users left, and audits it; 409 otherwise. */
+export async function deleteCustomer(models: Models, actor: CustomerActor, id: number): Promise<void> {
+  const c = await loadScopedCustomer(models, actor.user, id);
   const [sites, users] = await Promise.all([models.Site.count({ where: { customerId: c.id } }), models.User.count({ where: { customerId: c.id } })]);
   if (sites > 0 || users > 0) {
     throw problems.conflict(`Customer "${c.name}" still has ${sites} site(s) and ${users} user(s); remove or move them first.`);
@@ -116,4 +131,5 @@ export async function deleteCustomer(models: Models, c: Customer): Promise<void>
     if (err instanceof ForeignKeyConstraintError) throw problems.conflict(`Customer "${c.name}" still has records that refer to it and cannot be deleted.`);
     throw err;
   }
+  await auditBy(models, actor, { action: 'customer.delete', entityType: 'customer', entityId: c.id, customerId: c.id, detail: { name: c.name } });
 }

@@ -34,8 +34,13 @@ interface Screen {
 /** Records pages are being added while this sweep exists: take those the client's route table has (src/router/routes.ts). */
 function recordsScreens(): Screen[] {
   const src = readFileSync(path.join(PROJECT_ROOT, 'src', 'router', 'routes.ts'), 'utf8');
-  return [...src.matchAll(/path:\s*'(records\/[a-z0-9-]+)'/g)].map((m) => ({ name: (m[1] ?? '').replace('/', '-'), path: () => `/${m[1]}` }));
+  // An optional parameter (`/:boxId(\\d+)?`) is left out; a page that needs an id of its own is skipped.
+  const paths = [...src.matchAll(/path:\s*'(records\/[^']+)'/g)].map((m) => (m[1] ?? '').replace(/\/:\w+(\([^)]*\))?\?/g, ''));
+  return paths.filter((p) => !p.includes(':')).map((p) => ({ name: p.replaceAll('/', '-'), path: () => `/${p}` }));
 }
+
+// A list page has loaded: a table cell (wide), a card (phone) or its empty message (src/components/list/ListPage.vue).
+const LIST_READY = '[data-test="list-table"] .n-data-table-td, [data-test="list-cards"] li, [data-test="list-empty"]';
 
 let srv: RunningServer;
 let browser: Browser;
@@ -53,12 +58,12 @@ const SCREENS: Screen[] = [
   { name: 'alarm-detail', path: () => `/alarms/${alarmId}`, ready: '[data-test="alarm-state"]' },
   { name: 'pt-calculator', path: () => '/tools/pressure-temperature' },
   { name: 'superheat-calculator', path: () => '/tools/superheat' },
-  { name: 'customers', path: () => '/customers', ready: 'main .n-data-table-tbody .n-data-table-tr' },
-  { name: 'sites', path: () => '/sites', ready: 'main .n-data-table-tbody .n-data-table-tr' },
-  { name: 'boxes', path: () => '/boxes', ready: 'main .n-data-table-tbody .n-data-table-tr' },
+  { name: 'customers', path: () => '/customers', ready: LIST_READY },
+  { name: 'sites', path: () => '/sites', ready: LIST_READY },
+  { name: 'boxes', path: () => '/boxes', ready: LIST_READY },
   { name: 'import', path: () => '/import' },
-  { name: 'users', path: () => '/admin/users', ready: 'main .n-data-table-tbody .n-data-table-tr' },
-  { name: 'controllers', path: () => '/admin/controllers', ready: 'main .n-data-table-tbody .n-data-table-tr' },
+  { name: 'users', path: () => '/admin/users', ready: LIST_READY },
+  { name: 'controllers', path: () => '/admin/controllers', ready: LIST_READY },
   { name: 'mailbox', path: () => '/admin/mailbox' },
   { name: 'push-inbox', path: () => '/admin/push-inbox' },
   { name: 'not-found', path: () => '/no-such-page' },
@@ -111,9 +116,9 @@ async function seriousViolations(page: Page): Promise<string[]> {
   const violations = await page.evaluate(async () => {
     const g = globalThis as unknown as AxeWindow;
     const r = await g.axe.run(g.document, { resultTypes: ['violations'] });
-    return r.violations.map((v) => ({ id: v.id, impact: v.impact, help: v.help, nodes: v.nodes.slice(0, 4).map((n) => JSON.stringify(n.target)) }));
+    return r.violations.map((v) => ({ id: v.id, impact: v.impact, help: v.help, nodes: v.nodes.slice(0, 4).map((n) => JSON.stringify(n.target)), why: (v.nodes[0]?.failureSummary ?? '').slice(0, 240) }));
   });
-  return violations.filter((v) => v.impact === 'serious' || v.impact === 'critical').map((v) => `${v.impact} ${v.id}: ${v.help} — ${v.nodes.join(' ')}`);
+  return violations.filter((v) => v.impact === 'serious' || v.impact === 'critical').map((v) => `${v.impact} ${v.id}: ${v.help} — ${v.nodes.join(' ')} — ${v.why}`);
 }
 
 /** Navigates inside the signed-in app with its own router (no reload: the sweep visits many screens). */

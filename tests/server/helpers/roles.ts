@@ -36,7 +36,7 @@ export async function signInRoles(srv: RunningServer, managerCustomerId: number)
   return out as Sessions;
 }
 
-export type Method = 'get' | 'post' | 'patch' | 'delete';
+export type Method = 'get' | 'post' | 'put' | 'patch' | 'delete';
 
 /** Sends a request as a session, with its CSRF token. */
 export function call(s: Session, method: Method, url: string, body?: object): request.Test {
