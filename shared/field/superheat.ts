@@ -20,13 +20,6 @@ import { deltaFToDeltaK, formatTemperatureDelta, type UnitSystem } from './units
 export const EVAPORATOR_SUPERHEAT_FLOOR_K = deltaFToDeltaK(5);
 
 /**
- * Old name of EVAPORATOR_SUPERHEAT_FLOOR_K, K. Kept only so files outside shared/field that still use
- * it (server/telemetry/settings.ts, tests/server) compile until they move to the new name.
- * @deprecated Use EVAPORATOR_SUPERHEAT_FLOOR_K.
- */
-export const COMPRESSOR_PROTECTION_MIN_SUPERHEAT_K = EVAPORATOR_SUPERHEAT_FLOOR_K;
-
-/**
  * Glide, K, from which the two-thermistor method is flagged. Rimehold's choice: at 1 K and more the
  * overstatement is a sizeable part of a typical 2-5 K superheat target.
  */

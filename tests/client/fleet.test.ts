@@ -196,6 +196,24 @@ describe('fleet store', () => {
     expect(renders.get(3) ?? 0).toBe(0);
   });
 
+  it('names a failed sensor on the card with its reason, and says nothing for a qualifying note such as glide', async () => {
+    const ctx = setup({ role: 'technician', unitSystem: 'metric-kpa' });
+    const fleet = useFleetStore(ctx.pinia);
+    const frames = manualFrames();
+    fleet.configure({ clock: () => NOW_MS, scheduler: frames.scheduler });
+    const open = { code: 'sensor-open' as const, sensor: 'suctionLineC' as const, affects: ['suctionLineC' as const, 'superheatK' as const], message: 'Suction-line sensor open (reads −60.0 °C): no superheat' };
+    const glide = { code: 'glide' as const, affects: ['superheatK' as const], message: 'Two-thermistor method on a blend with glide' };
+    fleet.replaceAll([makeStatus({ boxId: 1, latest: fresh({ superheatK: null, flags: [open] }) }), makeStatus({ boxId: 2, latest: fresh({ flags: [glide] }) })]);
+    const Host = defineComponent({ render: () => h('div', [1, 2].map((id) => h(FleetCard, { boxId: id, key: id }))) });
+    const w = mount(Host, { global: { plugins: [ctx.pinia, ctx.router] } });
+    await nextTick();
+    const marker = w.find('[data-box-id="1"] [data-test="box-quality"]');
+    expect(marker.exists()).toBe(true);
+    expect(marker.text()).toContain('Sensor fault');
+    expect(marker.attributes('title')).toBe(open.message);
+    expect(w.find('[data-box-id="2"] [data-test="box-quality"]').exists()).toBe(false);
+  });
+
   it('turns a box offline on the clock tick once its last reading is stale, without a reading', () => {
     const ctx = setup({ role: 'technician' });
     const fleet = useFleetStore(ctx.pinia);
