@@ -5,8 +5,12 @@
 import { spawn, type ChildProcess } from 'node:child_process';
 import path from 'node:path';
 import { ROOT, prepare, startSimulator } from './lib/prepare';
+import { startConfiguredMosquitto } from './lib/mosquitto';
 
-const { config, instance, fleetFile } = await prepare();
+const prepared = await prepare();
+const { instance, fleetFile } = prepared;
+// MQTT_BROKER=mosquitto: the project's mosquitto on loopback (never Debian's system service).
+const { config, mosquitto } = await startConfiguredMosquitto(prepared.config);
 const { startServer } = await import('../server/main');
 const running = await startServer(config);
 const children: ChildProcess[] = [
@@ -21,6 +25,7 @@ async function shutdown() {
   stopping = true;
   for (const c of children) if (c.exitCode === null) c.kill('SIGTERM');
   await running.stop();
+  await mosquitto?.stop();
   await instance?.stop();
   process.exit(0);
 }

@@ -6,8 +6,12 @@
 import type { ChildProcess } from 'node:child_process';
 import { ensureClientBuilt } from './lib/build';
 import { ROOT, prepare, startSimulator } from './lib/prepare';
+import { startConfiguredMosquitto } from './lib/mosquitto';
 
-const { config, instance, fleetFile } = await prepare();
+const prepared = await prepare();
+const { instance, fleetFile } = prepared;
+// MQTT_BROKER=mosquitto: the project's mosquitto on loopback (never Debian's system service).
+const { config, mosquitto } = await startConfiguredMosquitto(prepared.config);
 ensureClientBuilt(ROOT);
 
 const { startServer } = await import('../server/main');
@@ -31,6 +35,7 @@ async function shutdown(signal: string) {
     await Promise.race([exited, new Promise((r) => setTimeout(r, 5000))]);
   }
   await running.stop();
+  await mosquitto?.stop();
   await instance?.stop();
   console.log('stopped');
   process.exit(0);

@@ -10,6 +10,7 @@ import { existsSync, mkdirSync, readFileSync, rmSync, writeFileSync } from 'node
 import os from 'node:os';
 import path from 'node:path';
 import { MariaInstance } from './lib/mariadb';
+import { ensureMosquittoInstalled, findMosquitto, MosquittoInstance } from './lib/mosquitto';
 import { firstFreePort } from './lib/ports';
 import { ensureClientBuilt } from './lib/build';
 import { projectRootFrom } from './lib/root';
@@ -57,13 +58,34 @@ function ensureChromium() {
   if (r.status !== 0) throw new Error('apt-get install chromium failed');
 }
 
+/** Debian's mosquitto for tests/server/mosquitto.test.ts (and MQTT_BROKER=mosquitto): installed when missing and root. */
+function ensureMosquitto() {
+  if (findMosquitto()) return;
+  if (process.getuid?.() !== 0) {
+    console.warn('mosquitto is missing: install it with `sudo apt-get install -y mosquitto` for the mosquitto tests (they are skipped without it)');
+    return;
+  }
+  ensureMosquittoInstalled((l) => console.log(`[test-mqtt] ${l}`));
+}
+
 const instance = new MariaInstance({ dataDir, port, bufferPoolMiB: 256, redoLogMiB: 128, log: (l) => console.log(`[test-db] ${l}`) });
 await instance.start();
 let code = 1;
+let mosquitto: MosquittoInstance | null = null;
 try {
   instance.ensureAppDatabase(db);
   instance.resetDatabase(db.name);
   ensureChromium();
+  ensureMosquitto();
+  // MQTT_BROKER=mosquitto: one mosquitto for the run, on a free loopback port, in its own data dir.
+  const mosquittoEnv: Record<string, string> = {};
+  if (process.env.MQTT_BROKER === 'mosquitto') {
+    const dir = path.join(root, '.data', `mosquitto-test-${port}`);
+    rmSync(dir, { recursive: true, force: true });
+    mosquitto = new MosquittoInstance({ dataDir: dir, port: 0, maxPacketBytes: 8192, maxConnections: 10_000, maxQueuedMessages: 200_000, autosaveS: 10, log: (l) => console.log(`[test-mqtt] ${l}`) });
+    mosquittoEnv.MQTT_PORT = String(await mosquitto.start());
+    mosquittoEnv.MOSQUITTO_DIR = dir;
+  }
   if (process.env.SKIP_BUILD !== '1') ensureClientBuilt(root);
   const env = {
     ...process.env,
@@ -84,11 +106,13 @@ try {
     MQTT_PORT: '0',
     LOG_LEVEL: process.env.LOG_LEVEL ?? 'silent',
     DEMO_MODE: '0',
+    ...mosquittoEnv,
   };
   const vitest = spawn(process.execPath, [path.join(root, 'node_modules', 'vitest', 'vitest.mjs'), 'run', ...process.argv.slice(2)], { cwd: root, stdio: 'inherit', env });
   code = await new Promise<number>((resolve) => vitest.on('exit', (c) => resolve(c ?? 1)));
 } finally {
   // Tests may have stopped and restarted the instance (outage tests): stop whatever runs on our data dir.
+  await mosquitto?.stop();
   await instance.stop(true);
   claim.release();
 }

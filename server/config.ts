@@ -87,8 +87,23 @@ const EnvSchema = z.object({
    * memory: for measuring only, loses sessions on restart.
    */
   MQTT_PERSISTENCE: z.enum(['journal', 'level', 'memory']).default('journal'),
+  /**
+   * Where the embedded broker runs. inline: in the server's own event loop. process: in a child
+   * process of its own (server/mqtt/brokerProcess.ts) on the other core, restarted when it dies.
+   */
+  MQTT_EMBEDDED_IN: z.enum(['inline', 'process']).default('inline'),
   /** Directory of the embedded broker's durable session store (default DATA_DIR/broker). */
   MQTT_PERSISTENCE_DIR: z.string().optional(),
+  /**
+   * embedded (default): the server's own broker. mosquitto: Debian's mosquitto, started on loopback
+   * by `npm start` / `npm test` (scripts/lib/mosquitto.ts); accounts kept through its
+   * dynamic-security plugin (server/mqtt/mosquittoAccounts.ts).
+   */
+  MQTT_BROKER: z.enum(['embedded', 'mosquitto']).default('embedded'),
+  /** mosquitto's data directory: configuration, dynamic-security file, persistence (default DATA_DIR/mosquitto). */
+  MOSQUITTO_DIR: z.string().optional(),
+  /** Seconds between mosquitto's saves of its state; a mosquitto crash loses what arrived since the last one. */
+  MOSQUITTO_AUTOSAVE_S: z.coerce.number().int().min(1).max(3600).default(10),
   SMTP_HOST: z.string().default('127.0.0.1'),
   SMTP_PORT: z.coerce.number().int().min(0).max(65535).default(2525),
   SMTP_USER: z.string().optional(),
@@ -164,6 +179,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     throw new Error(`Invalid configuration:\n${lines.join('\n')}`);
   }
   const c = parsed.data;
+  if (c.MQTT_BROKER === 'mosquitto' && c.MQTT_URL) throw new Error('Invalid configuration:\n  MQTT_URL: leave it unset with MQTT_BROKER=mosquitto (the server connects to its mosquitto at MQTT_HOST:MQTT_PORT)');
   if (c.NODE_ENV === 'production') {
     const refusals = productionRefusals(c);
     if (refusals.length) throw new Error(`Refusing to start in production:\n${refusals.map((r) => `  ${r}`).join('\n')}`);

@@ -8,11 +8,12 @@ import type { FakeSmtp } from './mail/fakeSmtp';
 import type { EventBus } from './events/bus';
 import type { TelemetryMetrics } from './telemetry/metrics';
 import type { PushService } from './push/service';
+import type { DeviceAccounts } from './mqtt/mosquittoAccounts';
 
 export interface BrokerStatus {
   /** 'up' when the embedded broker listens (or the external one is connected), 'down' otherwise. */
   state(): 'up' | 'down';
-  mode: 'embedded' | 'external' | 'none';
+  mode: 'embedded' | 'external' | 'mosquitto' | 'none';
 }
 
 export interface AppContext {
@@ -27,6 +28,8 @@ export interface AppContext {
   /** Web Push: VAPID keys, sending, the fake push service (PUSH_FAKE=1); absent only in contexts built by hand. */
   push?: PushService;
   broker: BrokerStatus;
+  /** Controller accounts on mosquitto's dynamic-security plugin (MQTT_BROKER=mosquitto only). */
+  deviceAccounts?: DeviceAccounts;
   metrics: TelemetryMetrics;
   /** Publishes an MQTT message through the server's own client (settings, demo faults). */
   publish?: (topic: string, payload: string, opts?: { qos?: 0 | 1; retain?: boolean }) => Promise<void>;

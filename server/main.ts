@@ -11,7 +11,9 @@ import { FakeSmtp } from './mail/fakeSmtp';
 import { EventBus } from './events/bus';
 import { createApp } from './app';
 import type { AppContext, BrokerStatus } from './context';
-import { EmbeddedBroker } from './mqtt/broker';
+import { EmbeddedBroker, type BrokerHandle, type BrokerOptions } from './mqtt/broker';
+import { BrokerProxy } from './mqtt/brokerProxy';
+import { startMosquittoAccounts } from './mqtt/mosquittoAccounts';
 import { Ingest } from './telemetry/ingest';
 import { ReadingWriter } from './telemetry/writer';
 import { BoxCache } from './telemetry/boxCache';
@@ -29,7 +31,8 @@ export interface RunningServer {
   port: number;
   ctx: AppContext;
   server: http.Server;
-  broker: EmbeddedBroker | null;
+  /** The embedded broker, inline or in its own process (MQTT_EMBEDDED_IN); null with an external one. */
+  broker: BrokerHandle | null;
   ingest: Ingest | null;
   /** The alarm service (with telemetry only). */
   alarms: AlarmService | null;
@@ -71,12 +74,12 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
   const bus = new EventBus();
   const metrics = createTelemetryMetrics();
   const telemetry = opts.telemetry ?? true;
-  let embedded: EmbeddedBroker | null = null;
+  let embedded: BrokerHandle | null = null;
   let ingest: Ingest | null = null;
   let mqttUrl: string | null = null;
   let alarms: AlarmService | null = null;
   const brokerStatus: BrokerStatus = {
-    mode: !telemetry ? 'none' : config.MQTT_URL ? 'external' : 'embedded',
+    mode: !telemetry ? 'none' : config.MQTT_URL ? 'external' : config.MQTT_BROKER === 'mosquitto' ? 'mosquitto' : 'embedded',
     state: () => (embedded ? (embedded.up ? 'up' : 'down') : ingest?.connected ? 'up' : 'down'),
   };
   const push = await PushService.start(sequelize, config, logger);
@@ -86,8 +89,16 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
   const settings = new SettingsService(ctx);
 
   if (telemetry) {
-    if (!config.MQTT_URL) {
-      embedded = new EmbeddedBroker({
+    // MQTT_BROKER=mosquitto: the broker runs apart (scripts/lib/mosquitto.ts); the server manages
+    // its accounts over the dynamic-security control topic and its ingest connects to it.
+    if (config.MQTT_BROKER === 'mosquitto') {
+      const accounts = await startMosquittoAccounts(config, { models, bus, logger });
+      ctx.deviceAccounts = accounts;
+      stops.push(() => accounts.stop());
+      mqttUrl = `mqtt://${config.MQTT_HOST}:${config.MQTT_PORT}`;
+    }
+    if (!config.MQTT_URL && config.MQTT_BROKER === 'embedded') {
+      const brokerOptions: BrokerOptions = {
         host: config.MQTT_HOST,
         port: config.MQTT_PORT,
         persistenceDir: config.MQTT_PERSISTENCE_DIR ?? path.join(config.DATA_DIR, 'broker'),
@@ -113,7 +124,9 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
         bus,
         metrics,
         logger,
-      });
+      };
+      // process: the broker on its own event loop (the other core), with its own sign-in pool.
+      embedded = config.MQTT_EMBEDDED_IN === 'process' ? new BrokerProxy({ ...brokerOptions, metrics, config }) : new EmbeddedBroker(brokerOptions);
       const port = await embedded.start();
       mqttUrl = `mqtt://${config.MQTT_HOST}:${port}`;
     }

@@ -32,6 +32,9 @@ async function publish(): Promise<void> {
       }),
     );
   }
+  // The bench takes its CPU snapshots of the other processes from here: connecting is not counted.
+  process.stdout.write('connected\n');
+  const cpu0 = process.cpuUsage();
   const published = new Map<string, number>();
   const start = Date.now();
   const end = start + seconds * 1000;
@@ -92,8 +95,9 @@ async function publish(): Promise<void> {
     }),
   );
   const elapsed = (Date.now() - start) / 1000;
+  const cpu = process.cpuUsage(cpu0);
   await Promise.all(clients.map((c) => c.endAsync()));
-  process.stdout.write(`${JSON.stringify({ published: Object.fromEntries(published), total, elapsed, startedAt: start })}\n`);
+  process.stdout.write(`${JSON.stringify({ published: Object.fromEntries(published), total, elapsed, startedAt: start, cpuS: (cpu.user + cpu.system) / 1e6 })}\n`);
 }
 
 async function ws(): Promise<void> {
@@ -111,11 +115,13 @@ async function ws(): Promise<void> {
     if (e.type === 'reading' && e.reading) latencies.push(Date.now() - Date.parse(e.reading.ts));
   });
   process.stdout.write('ready\n');
+  const cpu0 = process.cpuUsage();
   await new Promise((r) => setTimeout(r, seconds * 1000));
+  const cpu = process.cpuUsage(cpu0);
   sock.close();
   latencies.sort((a, b) => a - b);
   const q = (p: number) => latencies[Math.min(latencies.length - 1, Math.floor(p * latencies.length))] ?? null;
-  process.stdout.write(`${JSON.stringify({ received: latencies.length, p50: q(0.5), p99: q(0.99), max: latencies[latencies.length - 1] ?? null })}\n`);
+  process.stdout.write(`${JSON.stringify({ received: latencies.length, p50: q(0.5), p99: q(0.99), max: latencies[latencies.length - 1] ?? null, cpuS: (cpu.user + cpu.system) / 1e6 })}\n`);
 }
 
 if (mode === 'publish') await publish();

@@ -175,8 +175,8 @@ export async function alarmIdOfToken(ctx: AppContext, token: string): Promise<nu
 }
 
 /** Moves shelved alarms whose time is up out of shelving (ISA-18.2: shelving is time-limited). */
-export async function expireShelving(ctx: AppContext, nowMs: number): Promise<number> {
-  const due = await ctx.models.Alarm.findAll({ where: { state: 'shelved', shelvedUntil: { [Op.lte]: new Date(nowMs) } }, attributes: ['id'] });
+export async function expireShelving(ctx: AppContext, nowMs: number, boxIds?: readonly number[]): Promise<number> {
+  const due = await ctx.models.Alarm.findAll({ where: { state: 'shelved', shelvedUntil: { [Op.lte]: new Date(nowMs) }, ...(boxIds ? { boxId: [...boxIds] } : {}) }, attributes: ['id'] });
   let n = 0;
   for (const { id } of due) {
     const a = await ctx.sequelize.transaction(async (t) => {
@@ -233,8 +233,8 @@ export async function escalateAlarm(ctx: AppContext, alarmId: number, nowMs: num
 }
 
 /** Sends every escalation step due at the instant; returns how many were sent. */
-export async function escalateDue(ctx: AppContext, nowMs: number): Promise<number> {
-  const due = await ctx.models.Alarm.findAll({ where: { nextEscalationAt: { [Op.lte]: new Date(nowMs) } }, attributes: ['id'], order: [['id', 'ASC']], limit: 500 });
+export async function escalateDue(ctx: AppContext, nowMs: number, boxIds?: readonly number[]): Promise<number> {
+  const due = await ctx.models.Alarm.findAll({ where: { nextEscalationAt: { [Op.lte]: new Date(nowMs) }, ...(boxIds ? { boxId: [...boxIds] } : {}) }, attributes: ['id'], order: [['id', 'ASC']], limit: 500 });
   let n = 0;
   for (const { id } of due) if ((await escalateAlarm(ctx, id, nowMs)) !== null) n++;
   return n;

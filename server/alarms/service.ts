@@ -99,7 +99,7 @@ export class AlarmService {
     on('controller', (e) => this.run(e.boxId, (s) => s.engine.onControllerStatus(e.online, Date.parse(e.at))));
     on('boxChanged', (e) => this.enqueue(e.boxId, () => this.reload(e.boxId)));
     on('boxMaintenance', (e) => this.onMaintenance(e.boxId, e.untilMs, { userId: e.byUserId ?? null, note: e.note ?? null }));
-    const tick = setInterval(() => void this.tick(Date.now()), this.opts.tickMs ?? 30_000);
+    const tick = setInterval(() => this.timerTick(), this.opts.tickMs ?? 30_000);
     const snap = setInterval(() => void this.saveSnapshots().catch((err) => this.ctx.logger.error({ err }, 'alarm snapshot save failed')), this.opts.snapshotMs ?? 60_000);
     tick.unref();
     snap.unref();
@@ -135,23 +135,34 @@ export class AlarmService {
     await this.chains.get(boxId);
   }
 
-  /** One timer step at `nowMs`: engine ticks, shelving expiry, then due escalations. */
-  tick(nowMs: number): Promise<void> {
-    if (this.ticking) return this.ticking;
-    this.ticking = (async () => {
-      try {
-        for (const id of this.boxes.keys()) this.run(id, (s) => s.engine.onTick(nowMs));
-        await Promise.all([...this.chains.values()]);
-        await this.expireMaintenance(nowMs);
-        await expireShelving(this.ctx, nowMs);
-        await escalateDue(this.ctx, nowMs);
-      } catch (err) {
-        this.ctx.logger.error({ err }, 'alarm tick failed');
-      } finally {
-        this.ticking = null;
-      }
-    })();
+  /**
+   * One timer step at `nowMs`: engine ticks, maintenance and shelving expiry, then due escalations.
+   * `boxIds` limits the step to those boxes' engines and alarms (tests step one box into the
+   * future without stepping every other box in the database). A call while a step runs waits for it, then runs.
+   */
+  async tick(nowMs: number, boxIds?: readonly number[]): Promise<void> {
+    while (this.ticking) await this.ticking;
+    this.ticking = this.step(nowMs, boxIds);
     return this.ticking;
+  }
+
+  /** The interval's step: skipped while the previous one still runs, so slow steps never pile up. */
+  private timerTick(): void {
+    if (!this.ticking) void this.tick(Date.now());
+  }
+
+  private async step(nowMs: number, boxIds?: readonly number[]): Promise<void> {
+    try {
+      for (const id of boxIds ?? [...this.boxes.keys()]) if (this.boxes.has(id)) this.run(id, (s) => s.engine.onTick(nowMs));
+      await Promise.all([...this.chains.values()]);
+      await this.expireMaintenance(nowMs, boxIds);
+      await expireShelving(this.ctx, nowMs, boxIds);
+      await escalateDue(this.ctx, nowMs, boxIds);
+    } catch (err) {
+      this.ctx.logger.error({ err }, 'alarm tick failed');
+    } finally {
+      this.ticking = null;
+    }
   }
 
   /** Sends the escalation steps due at `nowMs` (the tick does this; tests call it with a later instant). */
@@ -178,8 +189,8 @@ export class AlarmService {
   }
 
   /** Ends the maintenance windows that ran out by `nowMs` (the DB row is the authority; a newer window set meanwhile is kept). */
-  private async expireMaintenance(nowMs: number): Promise<void> {
-    const due = await this.ctx.models.BoxMaintenance.findAll({ where: { untilAt: { [Op.lte]: new Date(nowMs) } }, attributes: ['boxId', 'untilAt'] });
+  private async expireMaintenance(nowMs: number, boxIds?: readonly number[]): Promise<void> {
+    const due = await this.ctx.models.BoxMaintenance.findAll({ where: { untilAt: { [Op.lte]: new Date(nowMs) }, ...(boxIds ? { boxId: [...boxIds] } : {}) }, attributes: ['boxId', 'untilAt'] });
     for (const m of due) {
       const removed = await this.ctx.models.BoxMaintenance.destroy({ where: { boxId: m.boxId, untilAt: { [Op.lte]: new Date(nowMs) } } });
       if (removed > 0) this.onMaintenance(m.boxId, null, { userId: null, note: 'maintenance window ran out' });

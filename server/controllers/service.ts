@@ -126,6 +126,13 @@ export async function provisionController(ctx: AppContext, body: ControllerCreat
       lastSeenAt: null,
       secretRotatedAt: null,
     });
+    try {
+      await ctx.deviceAccounts?.provision(controller.serial, deviceSecret);
+    } catch (err) {
+      // No broker account, no controller: the secret would be shown for an account that cannot sign in.
+      await controller.destroy();
+      throw brokerUnavailable(ctx, err);
+    }
     return { controller, deviceSecret };
   } catch (err) {
     // Two admins racing for the same box or serial: the unique keys decide.
@@ -137,6 +144,8 @@ export async function provisionController(ctx: AppContext, body: ControllerCreat
 /** Replaces the device secret; the old one stops working and the broker drops the connection. */
 export async function rotateSecret(ctx: AppContext, c: Controller): Promise<ProvisionResult> {
   const deviceSecret = newDeviceSecret();
+  // mosquitto first: when it cannot take the new secret, nothing changes and the old one keeps working.
+  await ctx.deviceAccounts?.setSecret(c.serial, deviceSecret).catch((err: unknown) => Promise.reject(brokerUnavailable(ctx, err)));
   await c.update({ secretHash: hashDeviceSecret(deviceSecret), secretRotatedAt: new Date() });
   ctx.bus.emit('controllerRevoked', { serial: c.serial, reason: 'rotated' });
   return { controller: c, deviceSecret };
@@ -144,9 +153,16 @@ export async function rotateSecret(ctx: AppContext, c: Controller): Promise<Prov
 
 /** Disables or enables a controller; disabling revokes its broker connection. */
 export async function setDisabled(ctx: AppContext, c: Controller, disabled: boolean): Promise<Controller> {
+  await ctx.deviceAccounts?.setEnabled(c.serial, !disabled).catch((err: unknown) => Promise.reject(brokerUnavailable(ctx, err)));
   await c.update({ disabled });
   if (disabled) ctx.bus.emit('controllerRevoked', { serial: c.serial, reason: 'disabled' });
   return c;
+}
+
+/** The 503 answer when mosquitto's account manager fails (MQTT_BROKER=mosquitto); logs the cause. */
+function brokerUnavailable(ctx: AppContext, err: unknown) {
+  ctx.logger.error({ err: (err as Error).message }, 'mosquitto account change failed');
+  return problems.unavailable('The MQTT broker did not take the account change; nothing was changed. Try again in a moment.');
 }
 
 /** Sets the declared reference of the controller's transducers; the ingest converts by it from now on. */

@@ -15,12 +15,37 @@ import { JournalPersistence } from './journalPersistence';
 import type { Logger } from '../logger';
 import type { Models } from '../models';
 import type { EventBus } from '../events/bus';
-import type { TelemetryMetrics } from '../telemetry/metrics';
 import { parseControllerTopic, TOPIC_PREFIX } from '../../shared/schemas/telemetry';
 import { verifyDeviceSecret } from '../controllers/secrets';
 import { DEFAULT_BROKER_LIMITS, PacketGate, SignInThrottle, type BrokerLimits } from './limits';
 
 export const SIM_FAULT_TOPIC = 'rimehold/v1/sim/fault';
+
+/**
+ * The broker's own metrics: the server's registry (inline), or counters that the broker process
+ * forwards to the server over IPC (brokerProcess.ts). TelemetryMetrics satisfies this.
+ */
+export interface BrokerMetrics {
+  refused: { inc(labels: { reason: string }): void };
+  brokerQueueDepth: { set(value: number): void };
+  connectedControllers: { inc(): void; dec(): void };
+}
+
+/** What main.ts, the tests and the benchmark use of a running embedded broker, inline or in its own process. */
+export interface BrokerHandle {
+  /** The TCP port it listens on (kept across a restart). */
+  readonly port: number;
+  /** True while the listener is up. */
+  readonly up: boolean;
+  /** Times the stall watchdog had to reconnect the ingest. */
+  readonly stallRecoveries: number;
+  /** Starts the broker; resolves the port. */
+  start(): Promise<number>;
+  /** Stops the broker and closes its store. */
+  stop(): Promise<void>;
+  /** Drops every connection signed in as this controller. */
+  dropController(serial: string): void;
+}
 
 export interface BrokerOptions {
   host: string;
@@ -38,9 +63,9 @@ export interface BrokerOptions {
   /** Packet, connection and sign-in limits (defaults: DEFAULT_BROKER_LIMITS). */
   limits?: Partial<BrokerLimits>;
   ingestQueueLimit: number;
-  models: Models;
+  models: Pick<Models, 'Controller'>;
   bus: EventBus;
-  metrics: TelemetryMetrics;
+  metrics: BrokerMetrics;
   logger: Logger;
 }
 
@@ -69,7 +94,7 @@ function sameSecret(a: string, b: string): boolean {
   return diff === 0;
 }
 
-export class EmbeddedBroker {
+export class EmbeddedBroker implements BrokerHandle {
   private aedes: Aedes | null = null;
   private server: net.Server | null = null;
   private db: Level | null = null;

@@ -121,6 +121,30 @@ async function seriousViolations(page: Page): Promise<string[]> {
   return violations.filter((v) => v.impact === 'serious' || v.impact === 'critical').map((v) => `${v.impact} ${v.id}: ${v.help} — ${v.nodes.join(' ')} — ${v.why}`);
 }
 
+/**
+ * Two faults axe does not see: a page heading flush against the content edge (the page lost its
+ * padding), and a link in a table or card that keeps the browser's blue underline while not hovered.
+ */
+async function layoutFaults(page: Page): Promise<string[]> {
+  await page.mouse.move(0, 0);
+  return page.evaluate(() => {
+    const doc = (globalThis as unknown as AxeWindow).document as unknown as {
+      querySelector(s: string): { getBoundingClientRect(): { left: number } } | null;
+      querySelectorAll(s: string): ArrayLike<{ textContent: string | null; matches(s: string): boolean }>;
+    };
+    const view = globalThis as unknown as { getComputedStyle(e: unknown): { textDecorationLine: string } };
+    const out: string[] = [];
+    const main = doc.querySelector('main.content');
+    const heading = doc.querySelector('main.content h1, main.content h2');
+    if (main && heading && heading.getBoundingClientRect().left - main.getBoundingClientRect().left < 8) out.push('heading flush against the content edge');
+    for (const a of Array.from(doc.querySelectorAll('main.content table a, main.content .n-card a'))) {
+      if (a.matches(':focus-visible')) continue;
+      if (view.getComputedStyle(a).textDecorationLine.includes('underline')) out.push(`underlined link "${(a.textContent ?? '').trim().slice(0, 40)}"`);
+    }
+    return out;
+  });
+}
+
 /** Navigates inside the signed-in app with its own router (no reload: the sweep visits many screens). */
 async function routerPush(page: Page, to: string): Promise<void> {
   await page.evaluate(async (target) => {
@@ -184,5 +208,6 @@ describe.each(COMBOS)('screens at $size size in the $theme theme', ({ size, opts
     if (violations.length) found[`${screen.name} ${size} ${theme}`] = violations;
     expect(violations).toEqual([]);
     expect(pageErrors).toEqual([]);
+    if (!screen.guest) expect(await layoutFaults(page)).toEqual([]);
   });
 });
