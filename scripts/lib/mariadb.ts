@@ -6,9 +6,9 @@
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import { createHash } from 'node:crypto';
 import { existsSync, mkdirSync, readFileSync, readlinkSync, rmSync, symlinkSync, writeFileSync } from 'node:fs';
-import net from 'node:net';
 import os from 'node:os';
 import path from 'node:path';
+import { pidAlive, portOpen } from './ports';
 
 export interface InstanceOptions {
   /** Absolute data directory, e.g. <project>/.data/mariadb. */
@@ -87,29 +87,6 @@ export function instanceConfig(o: InstanceOptions): string {
     'skip-log-bin',
     '',
   ].join('\n');
-}
-
-function portOpen(port: number): Promise<boolean> {
-  return new Promise((resolve) => {
-    const s = net.connect({ host: '127.0.0.1', port }, () => {
-      s.destroy();
-      resolve(true);
-    });
-    s.on('error', () => resolve(false));
-    s.setTimeout(1000, () => {
-      s.destroy();
-      resolve(false);
-    });
-  });
-}
-
-function pidAlive(pid: number): boolean {
-  try {
-    process.kill(pid, 0);
-    return true;
-  } catch {
-    return false;
-  }
 }
 
 /** A project-local mariadbd: start, stop, and run SQL as the local root over the socket. */

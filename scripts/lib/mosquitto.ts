@@ -9,6 +9,7 @@ import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, writeFileSync
 import net from 'node:net';
 import os from 'node:os';
 import path from 'node:path';
+import { pidAlive, portOpen } from './ports';
 import { ensureAdminSecret, initialDynsecJson, mosquittoPaths } from '../../server/mqtt/mosquittoFiles';
 import type { Config } from '../../server/config';
 
@@ -126,20 +127,6 @@ export function mosquittoConfig(o: MosquittoOptions & { port: number; pluginPath
   ].join('\n');
 }
 
-function portOpen(port: number): Promise<boolean> {
-  return new Promise((resolve) => {
-    const s = net.connect({ host: '127.0.0.1', port }, () => {
-      s.destroy();
-      resolve(true);
-    });
-    s.on('error', () => resolve(false));
-    s.setTimeout(1000, () => {
-      s.destroy();
-      resolve(false);
-    });
-  });
-}
-
 function freePort(): Promise<number> {
   return new Promise((resolve, reject) => {
     const srv = net.createServer();
@@ -149,15 +136,6 @@ function freePort(): Promise<number> {
       srv.close(() => resolve(port));
     });
   });
-}
-
-function pidAlive(pid: number): boolean {
-  try {
-    process.kill(pid, 0);
-    return true;
-  } catch {
-    return false;
-  }
 }
 
 /** A project-local mosquitto: start, stop, and where it listens. */

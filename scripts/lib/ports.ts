@@ -15,3 +15,28 @@ export async function firstFreePort(start: number, taken: (port: number) => bool
   }
   throw new Error(`no free port from ${start}`);
 }
+
+/** Whether something accepts connections on 127.0.0.1:port (1 s timeout). */
+export function portOpen(port: number): Promise<boolean> {
+  return new Promise((resolve) => {
+    const s = net.connect({ host: '127.0.0.1', port }, () => {
+      s.destroy();
+      resolve(true);
+    });
+    s.on('error', () => resolve(false));
+    s.setTimeout(1000, () => {
+      s.destroy();
+      resolve(false);
+    });
+  });
+}
+
+/** Whether a process with this pid exists. */
+export function pidAlive(pid: number): boolean {
+  try {
+    process.kill(pid, 0);
+    return true;
+  } catch {
+    return false;
+  }
+}
