@@ -154,7 +154,7 @@ export class AlarmService {
   private async step(nowMs: number, boxIds?: readonly number[]): Promise<void> {
     try {
       for (const id of boxIds ?? [...this.boxes.keys()]) if (this.boxes.has(id)) this.run(id, (s) => s.engine.onTick(nowMs));
-      await Promise.all([...this.chains.values()]);
+      await this.chainsOf(boxIds);
       await this.expireMaintenance(nowMs, boxIds);
       await expireShelving(this.ctx, nowMs, boxIds);
       await escalateDue(this.ctx, nowMs, boxIds);
@@ -195,7 +195,13 @@ export class AlarmService {
       const removed = await this.ctx.models.BoxMaintenance.destroy({ where: { boxId: m.boxId, untilAt: { [Op.lte]: new Date(nowMs) } } });
       if (removed > 0) this.onMaintenance(m.boxId, null, { userId: null, note: 'maintenance window ran out' });
     }
-    await Promise.all([...this.chains.values()]);
+    await this.chainsOf(boxIds);
+  }
+
+  /** Waits for the pending events of the given boxes (all boxes without a list). */
+  private async chainsOf(boxIds?: readonly number[]): Promise<void> {
+    if (!boxIds) await Promise.all([...this.chains.values()]);
+    else await Promise.all(boxIds.map((id) => this.chains.get(id)));
   }
 
   private onReading(boxId: number, reading: ReadingDto): void {

@@ -167,7 +167,7 @@ describe('a maintenance window that runs out', () => {
     expect(await stateOf(alarm.id)).toBe('suppressed');
     // Make the window already over instead of waiting 15 minutes.
     await srv.ctx.models.BoxMaintenance.update({ untilAt: new Date(Date.now() - 1000) }, { where: { boxId: b.box.id } });
-    await srv.alarms?.tick(Date.now());
+    await srv.alarms?.tick(Date.now(), [b.box.id]);
     await waitFor(async () => (await stateOf(alarm.id)) === 'unacknowledged');
     expect(await srv.ctx.models.BoxMaintenance.findByPk(b.box.id)).toBeNull();
     const rows = await srv.ctx.models.AlarmTransition.findAll({ where: { alarmId: alarm.id, action: 'unsuppress' } });
