@@ -104,6 +104,12 @@ const EnvSchema = z.object({
   MOSQUITTO_DIR: z.string().optional(),
   /** Seconds between mosquitto's saves of its state; a mosquitto crash loses what arrived since the last one. */
   MOSQUITTO_AUTOSAVE_S: z.coerce.number().int().min(1).max(3600).default(10),
+  /**
+   * Ingest processes that share the telemetry through an MQTT 5 shared subscription
+   * (server/telemetry/ingestWorkers.ts). 1 (default): the server's own ingest takes everything.
+   * 2 or more needs MQTT_BROKER=mosquitto (the embedded broker speaks MQTT 3.1.1, without shared subscriptions).
+   */
+  INGEST_WORKERS: z.coerce.number().int().min(1).max(16).default(1),
   SMTP_HOST: z.string().default('127.0.0.1'),
   SMTP_PORT: z.coerce.number().int().min(0).max(65535).default(2525),
   SMTP_USER: z.string().optional(),
@@ -180,6 +186,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
   }
   const c = parsed.data;
   if (c.MQTT_BROKER === 'mosquitto' && c.MQTT_URL) throw new Error('Invalid configuration:\n  MQTT_URL: leave it unset with MQTT_BROKER=mosquitto (the server connects to its mosquitto at MQTT_HOST:MQTT_PORT)');
+  if (c.INGEST_WORKERS > 1 && c.MQTT_BROKER !== 'mosquitto') throw new Error('Invalid configuration:\n  INGEST_WORKERS: more than 1 needs MQTT_BROKER=mosquitto (shared subscriptions are MQTT 5; the embedded broker speaks 3.1.1)');
   if (c.NODE_ENV === 'production') {
     const refusals = productionRefusals(c);
     if (refusals.length) throw new Error(`Refusing to start in production:\n${refusals.map((r) => `  ${r}`).join('\n')}`);

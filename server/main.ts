@@ -13,6 +13,7 @@ import { createApp } from './app';
 import type { AppContext, BrokerStatus } from './context';
 import { EmbeddedBroker, type BrokerHandle, type BrokerOptions } from './mqtt/broker';
 import { BrokerProxy } from './mqtt/brokerProxy';
+import { IngestWorkers } from './telemetry/ingestWorkers';
 import { startMosquittoAccounts } from './mqtt/mosquittoAccounts';
 import { Ingest } from './telemetry/ingest';
 import { ReadingWriter } from './telemetry/writer';
@@ -34,6 +35,8 @@ export interface RunningServer {
   /** The embedded broker, inline or in its own process (MQTT_EMBEDDED_IN); null with an external one. */
   broker: BrokerHandle | null;
   ingest: Ingest | null;
+  /** The ingest worker processes (INGEST_WORKERS ≥ 2), or null when the server's ingest takes the telemetry. */
+  ingestWorkers: IngestWorkers | null;
   /** The alarm service (with telemetry only). */
   alarms: AlarmService | null;
   hub: LiveHub;
@@ -76,6 +79,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
   const telemetry = opts.telemetry ?? true;
   let embedded: BrokerHandle | null = null;
   let ingest: Ingest | null = null;
+  let workers: IngestWorkers | null = null;
   let mqttUrl: string | null = null;
   let alarms: AlarmService | null = null;
   const brokerStatus: BrokerStatus = {
@@ -147,6 +151,8 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
       writer,
       boxes,
       onConfigAck: (serial, ack) => settings.onAck(serial, ack),
+      // With ingest workers the telemetry goes to them; status and acks stay here (one subscriber).
+      kinds: config.INGEST_WORKERS > 1 ? ['status', 'config/ack'] : undefined,
     });
     // Subscribed before the ingest starts, so no replayed reading passes unevaluated.
     // ALARMS_ENABLED=0 (benchmarks only) starts none.
@@ -154,6 +160,11 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
     await alarmService?.start();
     alarms = alarmService;
     await ingest.start();
+    if (config.INGEST_WORKERS > 1) {
+      workers = new IngestWorkers({ count: config.INGEST_WORKERS, url: mqttUrl ?? '', config, bus, metrics, logger, batchSize: opts.batchSize, batchWindowMs: opts.batchWindowMs });
+      await workers.start();
+    }
+    const ws = workers;
     const ing = ingest;
     ctx.publish = (topic, payload, o) => ing.publish(topic, payload, o);
     settings.start();
@@ -161,6 +172,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
     stops.push(async () => {
       stopRetention();
       settings.stop();
+      await ws?.stop();
       await ing.stop();
       await alarmService?.stop();
       await writer.close();
@@ -192,6 +204,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
     server,
     broker: embedded,
     ingest,
+    ingestWorkers: workers,
     alarms,
     hub,
     mqttUrl,

@@ -13,7 +13,10 @@
  * Options: BENCH_SECONDS per step (default 10), BENCH_CONTROLLERS (default 400), BENCH_WINDOW (broker-alone
  * in-flight per connection, default 4), BENCH_PERSISTENCE=memory to see what the durable broker store costs,
  * BENCH_ALARM_ORDER (default on,off) to swap the order of the two pipeline runs, BENCH_MODES (default
- * inline,process: where the embedded broker runs, MQTT_EMBEDDED_IN) — each mode gets both alarm runs.
+ * inline,process,mosquitto: the embedded broker in the server's loop or in its own process
+ * (MQTT_EMBEDDED_IN), or Debian's mosquitto with BENCH_WORKERS ingest workers (default 2, INGEST_WORKERS);
+ * mosquitto is left out when it is not installed) — each mode gets both alarm runs. With mosquitto
+ * the broker-alone ceiling is measured for it too, with the same publishers and a null subscriber.
  * Every step also prints CPU seconds per 1,000 stored readings of each component: the load generator
  * (its publishing, as it reports it), the server process (this process: HTTP, ingest, WebSocket hub,
  * and the broker too when inline), the broker process (when separate) and mariadbd, from
@@ -29,6 +32,7 @@ import mqtt from 'mqtt';
 import { QueryTypes } from 'sequelize';
 import { MariaInstance } from '../lib/mariadb';
 import { firstFreePort } from '../lib/ports';
+import { findMosquitto, MosquittoInstance } from '../lib/mosquitto';
 import { projectRootFrom } from '../lib/root';
 
 process.env.TZ = 'UTC';
@@ -36,7 +40,8 @@ const root = projectRootFrom(import.meta.url, 2);
 const SECONDS = Number(process.env.BENCH_SECONDS ?? 10);
 const CONTROLLERS = Number(process.env.BENCH_CONTROLLERS ?? 400);
 const WINDOW = Number(process.env.BENCH_WINDOW ?? 4);
-const RATES = (process.env.BENCH_RATES ?? '1000,2000,4000,6000,8000,10000').split(',').map(Number);
+const RATES = (process.env.BENCH_RATES ?? '1000,2000,4000,6000,8000,10000,12000,15000').split(',').map(Number);
+const WORKERS = Number(process.env.BENCH_WORKERS ?? 2);
 /** Order of the two pipeline runs (alarm evaluation on, off); 'off,on' to see whether the order matters. */
 const ALARM_ORDER = (process.env.BENCH_ALARM_ORDER ?? 'on,off').split(',').map((v) => {
   if (v !== 'on' && v !== 'off') throw new Error(`BENCH_ALARM_ORDER: expected on,off or off,on, got ${process.env.BENCH_ALARM_ORDER}`);
@@ -44,10 +49,14 @@ const ALARM_ORDER = (process.env.BENCH_ALARM_ORDER ?? 'on,off').split(',').map((
 });
 if (ALARM_ORDER.length !== 2 || ALARM_ORDER[0] === ALARM_ORDER[1]) throw new Error('BENCH_ALARM_ORDER must name on and off once each');
 /** Where the embedded broker runs in the pipeline runs (MQTT_EMBEDDED_IN), in this order. */
-const MODES = (process.env.BENCH_MODES ?? 'inline,process').split(',').map((v) => {
-  if (v !== 'inline' && v !== 'process') throw new Error(`BENCH_MODES: expected inline and/or process, got ${process.env.BENCH_MODES}`);
+type Mode = 'inline' | 'process' | 'mosquitto';
+const MODES: Mode[] = (process.env.BENCH_MODES ?? (findMosquitto() ? 'inline,process,mosquitto' : 'inline,process')).split(',').map((v) => {
+  if (v !== 'inline' && v !== 'process' && v !== 'mosquitto') throw new Error(`BENCH_MODES: expected some of inline,process,mosquitto, got ${process.env.BENCH_MODES}`);
   return v;
 });
+const modeKey = (m: Mode) => (m === 'inline' ? 'brokerInline' : m === 'process' ? 'brokerProcess' : `mosquittoWorkers${WORKERS}`);
+/** The issue's goal for mosquitto with two ingest workers: sustained (p99 < 250 ms) readings/s. */
+const MOSQUITTO_GOAL_PER_S = 15_000;
 /** The issue's goals for the embedded broker: sustained (p99 < 250 ms) readings/s, and its share of the broker alone. */
 const EMBEDDED_GOAL_PER_S = 8000;
 const EMBEDDED_GOAL_RATIO = 0.6;
@@ -121,9 +130,11 @@ const { EventBus } = await import('../../server/events/bus');
 const { createTelemetryMetrics } = await import('../../server/telemetry/metrics');
 const { initModels } = await import('../../server/models');
 const { createLogger } = await import('../../server/logger');
+const { startMosquittoAccounts } = await import('../../server/mqtt/mosquittoAccounts');
 const config = loadConfig();
 const results: Record<string, unknown> = { brokerPersistence: config.MQTT_PERSISTENCE, machine: `${os.cpus().length} cores, ${Math.round(os.totalmem() / 2 ** 30)} GiB`, seconds: SECONDS, controllers: CONTROLLERS };
 
+let mosquitto: MosquittoInstance | null = null;
 try {
   const sequelize = createSequelize(config);
   await migrateUp(sequelize);
@@ -202,6 +213,37 @@ try {
     await alone.stop();
   }
 
+  // 2b. mosquitto alone (BENCH_MODES has mosquitto): its own data dir, the bench fleet's accounts made
+  // through the dynamic-security plugin, the same publishers and a null subscriber on the ingest account.
+  const mosquittoDir = mkdtempSync(path.join(os.tmpdir(), 'rimehold-bench-mosquitto-'));
+  if (MODES.includes('mosquitto')) {
+    mosquitto = new MosquittoInstance({ dataDir: mosquittoDir, port: 0, maxPacketBytes: 8192, maxConnections: 10_000, maxQueuedMessages: 2_000_000, autosaveS: 10, log: () => {} });
+    const mport = await mosquitto.start();
+    const mconfig = loadConfig({ ...process.env, MQTT_BROKER: 'mosquitto', MQTT_PORT: String(mport), MOSQUITTO_DIR: mosquittoDir, INGEST_WORKERS: String(WORKERS) });
+    const accounts = await startMosquittoAccounts(mconfig, { models, bus: new EventBus(), logger });
+    for (const c of creds) await accounts.provision(c.serial, c.secret);
+    await accounts.stop();
+    const url = `mqtt://127.0.0.1:${mport}`;
+    // A client id of its own (the ingest's is pinned to it): a null subscriber on the ingest account's rules.
+    const sub = await mqtt.connectAsync(url, { clientId: config.MQTT_INGEST_CLIENT_ID, username: config.MQTT_INGEST_USER, password: config.MQTT_INGEST_PASSWORD, clean: true, protocolVersion: 4 });
+    let received = 0;
+    let lastAt = 0;
+    sub.on('message', () => {
+      received++;
+      lastAt = Date.now();
+    });
+    await sub.subscribeAsync({ 'rimehold/v1/ctl/+/telemetry': { qos: 1 } });
+    let cpu0 = NaN;
+    const r = await runLoad(['--mode=publish', `--url=${url}`, `--creds=${JSON.stringify(creds)}`, `--seconds=${Math.min(10, SECONDS)}`, `--window=${WINDOW}`], () => (cpu0 = cpuSeconds(mosquitto?.runningPid())));
+    const total = Number(r.total);
+    const deadline = performance.now() + 30_000;
+    while (received < total && performance.now() < deadline) await new Promise((res) => setTimeout(res, 50));
+    results.mosquittoAloneMsgPerS = Math.round(received / ((lastAt - Number(r.startedAt)) / 1000));
+    results.mosquittoAloneDelivered = `${received}/${total}`;
+    results.mosquittoAloneCpuSPer1kMsgs = { load: per1k(Number(r.cpuS), received), mosquitto: per1k(cpuSeconds(mosquitto.runningPid()) - cpu0, received) };
+    await sub.endAsync();
+  }
+
   // 3. The pipeline, once per broker mode and alarm setting, each against its own server start (same
   // database, same fleet, a fresh broker store). Seqs never repeat across runs, so the count check at
   // the end holds over all runs together.
@@ -211,11 +253,17 @@ try {
   const mariadbPid = instance.runningPid();
 
   /** One pipeline run: the rising-rate steps against a server started with ALARMS_ENABLED on or off and the broker inline or in its own process. */
-  const pipelineRun = async (alarmsOn: boolean, runIndex: number, mode: 'inline' | 'process'): Promise<Record<string, unknown>> => {
-    const runConfig = loadConfig({ ...process.env, ALARMS_ENABLED: alarmsOn ? '1' : '0', MQTT_EMBEDDED_IN: mode, MQTT_PERSISTENCE_DIR: mkdtempSync(path.join(os.tmpdir(), 'rimehold-bench-broker-')) });
+  const pipelineRun = async (alarmsOn: boolean, runIndex: number, mode: Mode): Promise<Record<string, unknown>> => {
+    const brokerEnv =
+      mode === 'mosquitto'
+        ? { MQTT_BROKER: 'mosquitto', MQTT_PORT: String(mosquitto?.port ?? 0), MOSQUITTO_DIR: mosquittoDir, INGEST_WORKERS: String(WORKERS) }
+        : { MQTT_EMBEDDED_IN: mode, MQTT_PERSISTENCE_DIR: mkdtempSync(path.join(os.tmpdir(), 'rimehold-bench-broker-')) };
+    const runConfig = loadConfig({ ...process.env, ALARMS_ENABLED: alarmsOn ? '1' : '0', ...brokerEnv });
     const srv = await startServer(runConfig, { batchSize: 1000, batchWindowMs: 25 });
-    const out: Record<string, unknown> = { brokerIn: mode, alarmsEnabled: alarmsOn };
-    const brokerPid = () => (srv.broker && 'pid' in srv.broker ? (srv.broker as { pid: number | null }).pid : null);
+    const out: Record<string, unknown> = mode === 'mosquitto' ? { broker: 'mosquitto', ingestWorkers: WORKERS, alarmsEnabled: alarmsOn } : { brokerIn: mode, alarmsEnabled: alarmsOn };
+    const brokerPid = () => (mode === 'mosquitto' ? (mosquitto?.runningPid() ?? null) : srv.broker && 'pid' in srv.broker ? (srv.broker as { pid: number | null }).pid : null);
+    /** CPU seconds of the ingest workers together (NaN when one was replaced meanwhile or none run). */
+    const workersCpu = (pids: Array<number | null>) => (pids.length ? pids.reduce<number>((a, p) => a + cpuSeconds(p), 0) : NaN);
     try {
       if ((srv.alarms !== null) !== alarmsOn) throw new Error(`ALARMS_ENABLED=${alarmsOn ? 1 : 0} but the alarm service is ${srv.alarms ? 'running' : 'not running'}`);
       const mqttUrl = srv.mqttUrl ?? '';
@@ -237,9 +285,10 @@ try {
         const before = await count();
         // CPU snapshots once the publishers are connected (sign-in is not part of the figures).
         const pidAtStart = brokerPid();
-        let cpu0 = { server: NaN, broker: NaN, mariadbd: NaN };
+        const workerPids = srv.ingestWorkers?.pids ?? [];
+        let cpu0 = { server: NaN, broker: NaN, mariadbd: NaN, workers: NaN };
         const r = await runLoad(['--mode=publish', `--url=${mqttUrl}`, `--creds=${JSON.stringify(creds)}`, `--seconds=${SECONDS}`, `--window=${WINDOW}`, `--rate=${rate}`, `--seq-base=${seqOffset + seqBase}`], () => {
-          cpu0 = { server: cpuSeconds(process.pid), broker: cpuSeconds(pidAtStart), mariadbd: cpuSeconds(mariadbPid) };
+          cpu0 = { server: cpuSeconds(process.pid), broker: cpuSeconds(pidAtStart), mariadbd: cpuSeconds(mariadbPid), workers: workersCpu(workerPids) };
         });
         const endedAt = Date.now();
         const atEnd = (await count()) - before;
@@ -255,7 +304,8 @@ try {
           if (n !== stored) lastChange = Date.now();
           stored = n;
         }
-        const cpu1 = { server: cpuSeconds(process.pid), broker: brokerPid() === pidAtStart ? cpuSeconds(pidAtStart) : NaN, mariadbd: cpuSeconds(mariadbPid) };
+        const samePids = (srv.ingestWorkers?.pids ?? []).every((p, i) => p === workerPids[i]);
+        const cpu1 = { server: cpuSeconds(process.pid), broker: brokerPid() === pidAtStart ? cpuSeconds(pidAtStart) : NaN, mariadbd: cpuSeconds(mariadbPid), workers: samePids ? workersCpu(workerPids) : NaN };
         const startedAt = Number(r.startedAt);
         const wsr = await wsDone;
         out[label] = {
@@ -274,6 +324,7 @@ try {
             wsClient: per1k(Number(wsr.cpuS), stored),
             server: per1k(cpu1.server - cpu0.server, stored),
             broker: pidAtStart ? per1k(cpu1.broker - cpu0.broker, stored) : 'in the server process',
+            ...(workerPids.length ? { ingestWorkers: per1k(cpu1.workers - cpu0.workers, stored) } : {}),
             mariadbd: per1k(cpu1.mariadbd - cpu0.mariadbd, stored),
           },
         };
@@ -312,7 +363,8 @@ try {
       out.batches = bs.batches;
       out.meanBatchSize = Math.round(bs.mean);
       out.meanCommitMs = Number((it.mean * 1000).toFixed(1));
-      out.ratioToBrokerAlone = Number((Number(out.sustainedStoredPerS) / Number(results.brokerAloneMsgPerS)).toFixed(2));
+      const alone = Number(mode === 'mosquitto' ? results.mosquittoAloneMsgPerS : results.brokerAloneMsgPerS);
+      out.ratioToBrokerAlone = Number((Number(out.sustainedStoredPerS) / alone).toFixed(2));
       out.ratioToDbAlone = Number((Number(out.sustainedStoredPerS) / Number(results.dbAloneRowsPerS)).toFixed(2));
     } finally {
       await srv.stop();
@@ -338,16 +390,22 @@ try {
       offPerS > 0
         ? `${onPerS / offPerS >= ALARM_GOAL_RATIO ? 'met' : 'NOT met'}: on ${onPerS}/s vs off ${offPerS}/s sustained, goal on ≥ ${ALARM_GOAL_RATIO} × off`
         : 'not measured: the alarms-off run sustained no step';
-    // The embedded-broker goal, with alarm evaluation on: ≥ 8,000/s sustained and ≥ 60 % of the broker alone.
-    const ratio = onPerS / Number(results.brokerAloneMsgPerS);
-    modeOut.embeddedGoal = `${onPerS >= EMBEDDED_GOAL_PER_S && ratio >= EMBEDDED_GOAL_RATIO ? 'met' : 'NOT met'}: ${onPerS}/s sustained with alarms on (p99 < 250 ms), ${ratio.toFixed(2)} of the broker alone; goal ≥ ${EMBEDDED_GOAL_PER_S}/s and ≥ ${EMBEDDED_GOAL_RATIO}`;
-    results[mode === 'inline' ? 'brokerInline' : 'brokerProcess'] = modeOut;
+    if (mode === 'mosquitto') {
+      // The mosquitto goal, with alarm evaluation on: ≥ 15,000/s sustained with two ingest workers.
+      const ratio = onPerS / Number(results.mosquittoAloneMsgPerS);
+      modeOut.mosquittoGoal = `${onPerS >= MOSQUITTO_GOAL_PER_S && WORKERS === 2 ? 'met' : 'NOT met'}: ${onPerS}/s sustained with alarms on (p99 < 250 ms) and ${WORKERS} ingest workers, ${ratio.toFixed(2)} of mosquitto alone; goal ≥ ${MOSQUITTO_GOAL_PER_S}/s with 2 workers`;
+    } else {
+      // The embedded-broker goal, with alarm evaluation on: ≥ 8,000/s sustained and ≥ 60 % of the broker alone.
+      const ratio = onPerS / Number(results.brokerAloneMsgPerS);
+      modeOut.embeddedGoal = `${onPerS >= EMBEDDED_GOAL_PER_S && ratio >= EMBEDDED_GOAL_RATIO ? 'met' : 'NOT met'}: ${onPerS}/s sustained with alarms on (p99 < 250 ms), ${ratio.toFixed(2)} of the broker alone; goal ≥ ${EMBEDDED_GOAL_PER_S}/s and ≥ ${EMBEDDED_GOAL_RATIO}`;
+    }
+    results[modeKey(mode)] = modeOut;
   }
   // Side by side: the sustained rate and the CPU per 1,000 readings at it, per mode and alarm setting.
   results.sideBySide = Object.fromEntries(
     MODES.flatMap((mode) =>
       ALARM_ORDER.map((on) => {
-        const run = (results[mode === 'inline' ? 'brokerInline' : 'brokerProcess'] as Record<string, Record<string, unknown>>)[on ? 'alarmsOn' : 'alarmsOff'];
+        const run = (results[modeKey(mode)] as Record<string, Record<string, unknown>>)[on ? 'alarmsOn' : 'alarmsOff'];
         return [`${mode}, alarms ${on ? 'on' : 'off'}`, { sustainedStoredPerS: run?.sustainedStoredPerS, p99Ms: run?.sustainedLatencyP99Ms, keptUpStoredPerS: run?.keptUpStoredPerS, cpuSPer1kReadings: run?.sustainedCpuSPer1kReadings }];
       }),
     ),
@@ -362,6 +420,7 @@ try {
       : `FAILED: published ${totalPublished} over all ${runIndex} runs, stored ${chk?.n}, distinct ${chk?.distinct_seq}, controllers with a missing last seq ${mismatched}`;
   await fleetDb.close();
 } finally {
+  await mosquitto?.stop(true);
   await instance.stop(true);
 }
 console.log(JSON.stringify(results, null, 2));

@@ -13,6 +13,7 @@ import type { Logger } from '../logger';
 import type { Models } from '../models';
 import { TOPIC_PREFIX } from '../../shared/schemas/telemetry';
 import { DynsecClient, DynsecError } from './dynsec';
+import { INGEST_SHARE_GROUP, workerAccount } from '../telemetry/ingestWorkers';
 import { DYNSEC_ADMIN_USER, readAdminSecret } from './mosquittoFiles';
 
 /** The topic the server publishes demo faults on (same as the embedded broker's SIM_FAULT_TOPIC). */
@@ -54,6 +55,15 @@ export function ingestAcls(): Acl[] {
   ];
 }
 
+/**
+ * An ingest worker's rules: subscribe to every controller's telemetry through the workers' shared
+ * subscription (the plugin checks the whole `$share/<group>/<filter>`), and receive it.
+ */
+export function workerAcls(): Acl[] {
+  const topic = `${TOPIC_PREFIX}/+/telemetry`;
+  return [allow('subscribeLiteral', `$share/${INGEST_SHARE_GROUP}/${topic}`), allow('publishClientReceive', topic)];
+}
+
 /** The demo simulator's rules: the fault channel only. */
 export function simAcls(): Acl[] {
   return [allow('subscribeLiteral', SIM_FAULT_TOPIC), allow('publishClientReceive', SIM_FAULT_TOPIC)];
@@ -71,6 +81,8 @@ export interface MosquittoAccountsOptions {
   url: string;
   adminPassword: string;
   ingest: ServiceAccount;
+  /** The ingest workers' accounts (INGEST_WORKERS ≥ 2): telemetry through the shared subscription only. */
+  workers?: ServiceAccount[];
   /** The simulator's account (demo mode), or null. */
   sim: ServiceAccount | null;
   /** Demo mode: the simulator's fleet file (serials with plaintext secrets), given accounts at start. */
@@ -109,6 +121,7 @@ export class MosquittoAccounts implements DeviceAccounts {
   async start(): Promise<void> {
     await this.dynsec.start();
     await this.ensureAccount(this.o.ingest, 'rimehold-ingest', ingestAcls());
+    for (const w of this.o.workers ?? []) await this.ensureAccount(w, 'rimehold-ingest-worker', workerAcls());
     if (this.o.sim) await this.ensureAccount(this.o.sim, 'rimehold-sim', simAcls());
     this.o.bus.on('controllerRevoked', this.onRevoked);
     // The demo seed writes fresh secrets into the fleet file at every reseed; bring the accounts in step.
@@ -211,6 +224,7 @@ export async function startMosquittoAccounts(config: Config, deps: { models: Mod
     url: `mqtt://${config.MQTT_HOST}:${config.MQTT_PORT}`,
     adminPassword: readAdminSecret(dir),
     ingest: { username: config.MQTT_INGEST_USER, password: config.MQTT_INGEST_PASSWORD, clientId: config.MQTT_INGEST_CLIENT_ID },
+    workers: config.INGEST_WORKERS > 1 ? Array.from({ length: config.INGEST_WORKERS }, (_, i) => workerAccount(config, i + 1)) : [],
     sim: config.DEMO_MODE ? { username: config.MQTT_SIM_USER, password: config.MQTT_SIM_PASSWORD, clientId: config.MQTT_SIM_CLIENT_ID } : null,
     demoFleetFile: config.DEMO_MODE ? path.join(config.DATA_DIR, 'demo-controllers.json') : null,
     ...deps,

@@ -34,6 +34,26 @@ export interface IngestOptions {
   boxes: BoxCache;
   /** Called for each config/ack after the batch it came in is committed. */
   onConfigAck?: (serial: string, ack: ConfigAckPayload) => Promise<void>;
+  /** The topic kinds this ingest subscribes to (default all three). */
+  kinds?: readonly IngestKind[];
+  /**
+   * An MQTT 5 shared-subscription group: the broker spreads the messages of these topics over
+   * every ingest subscribed in the group (INGEST_WORKERS). The session is kept for
+   * SHARED_SESSION_EXPIRY_S after a disconnect, so a restarted worker gets its unacknowledged messages again.
+   */
+  shareGroup?: string;
+}
+
+export type IngestKind = 'telemetry' | 'status' | 'config/ack';
+export const INGEST_KINDS: readonly IngestKind[] = ['telemetry', 'status', 'config/ack'];
+/** How long mosquitto keeps a shared-subscription worker's session after it disconnects (7 days). */
+export const SHARED_SESSION_EXPIRY_S = 7 * 86_400;
+
+/** The subscriptions of an ingest: `rimehold/v1/ctl/+/<kind>`, under `$share/<group>/` in a group. */
+export function ingestSubscriptions(kinds: readonly IngestKind[], shareGroup?: string): Record<string, { qos: 1 }> {
+  const out: Record<string, { qos: 1 }> = {};
+  for (const k of kinds) out[`${shareGroup ? `$share/${shareGroup}/` : ''}${TOPIC_PREFIX}/+/${k}`] = { qos: 1 };
+  return out;
 }
 
 type Item =
@@ -108,7 +128,8 @@ export class Ingest {
       username: o.username,
       password: o.password,
       clean: false,
-      protocolVersion: 4,
+      // A shared subscription is MQTT 5; a v5 session ends at disconnect unless it is given an expiry.
+      ...(o.shareGroup ? { protocolVersion: 5 as const, properties: { sessionExpiryInterval: SHARED_SESSION_EXPIRY_S } } : { protocolVersion: 4 as const }),
       reconnectPeriod: 1000,
       connectTimeout: 10_000,
       keepalive: 30,
@@ -116,8 +137,13 @@ export class Ingest {
     });
     this.client = client;
     // gen counts connections: a PUBACK is only ever sent on the connection its message came on.
+    let first = true;
     client.on('connect', () => {
       this.gen++;
+      // mosquitto 2.0 restores a session from its persistence file but not the session's shared
+      // subscriptions: a shared-group ingest subscribes again on every reconnect (idempotent).
+      if (!first && o.shareGroup) client.subscribeAsync(ingestSubscriptions(o.kinds ?? INGEST_KINDS, o.shareGroup)).catch((err: Error) => o.logger.error({ err: err.message }, 'ingest resubscribe failed'));
+      first = false;
     });
     client.handleMessage = (packet, callback) => {
       this.receive(packet, this.gen);
@@ -132,10 +158,10 @@ export class Ingest {
     });
     return new Promise((resolve, reject) => {
       client.once('connect', (connack) => {
-        const subs = ['telemetry', 'status', 'config/ack'].reduce<Record<string, { qos: 1 }>>((acc, k) => ({ ...acc, [`${TOPIC_PREFIX}/+/${k}`]: { qos: 1 } }), {});
+        const subs = ingestSubscriptions(o.kinds ?? INGEST_KINDS, o.shareGroup);
         if (connack.sessionPresent) {
           o.logger.info('ingest resumed its persistent session');
-          return resolve();
+          if (!o.shareGroup) return resolve();
         }
         client.subscribeAsync(subs).then(() => resolve(), reject);
       });
