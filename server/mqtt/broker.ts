@@ -4,6 +4,7 @@
  * a controller publishes only under rimehold/v1/ctl/{its serial}/ and subscribes only to its own
  * config/set. The ingest is an ordinary client of this broker (or of an external one).
  */
+import { createBrokerEmitter } from './emitter';
 import net from 'node:net';
 import { mkdirSync } from 'node:fs';
 import type { AddressInfo } from 'node:net';
@@ -94,6 +95,9 @@ function sameSecret(a: string, b: string): boolean {
   return diff === 0;
 }
 
+/** Messages aedes delivers at once before it queues (its emitter's concurrency). */
+const BROKER_CONCURRENCY = 1000;
+
 export class EmbeddedBroker implements BrokerHandle {
   private aedes: Aedes | null = null;
   private server: net.Server | null = null;
@@ -131,7 +135,8 @@ export class EmbeddedBroker implements BrokerHandle {
     const persistence = this.db ? new AsyncLevelPersistence(this.db) : (this.journal ?? undefined);
     const aedes = await Aedes.createBroker({
       ...(persistence ? { persistence } : {}),
-      concurrency: 1000,
+      concurrency: BROKER_CONCURRENCY,
+      mq: createBrokerEmitter(BROKER_CONCURRENCY),
       heartbeatInterval: 60_000,
       connectTimeout: 30_000,
       authenticate: (client, username, password, done) => {
