@@ -220,7 +220,8 @@ try {
     mosquitto = new MosquittoInstance({ dataDir: mosquittoDir, port: 0, maxPacketBytes: 8192, maxConnections: 10_000, maxQueuedMessages: 2_000_000, autosaveS: 10, log: () => {} });
     const mport = await mosquitto.start();
     const mconfig = loadConfig({ ...process.env, MQTT_BROKER: 'mosquitto', MQTT_PORT: String(mport), MOSQUITTO_DIR: mosquittoDir, INGEST_WORKERS: String(WORKERS) });
-    const accounts = await startMosquittoAccounts(mconfig, { models, bus: new EventBus(), logger });
+    // Its start warns that the fleet has no accounts yet (they are made next): not part of the output.
+    const accounts = await startMosquittoAccounts(mconfig, { models, bus: new EventBus(), logger: createLogger('error') });
     for (const c of creds) await accounts.provision(c.serial, c.secret);
     await accounts.stop();
     const url = `mqtt://127.0.0.1:${mport}`;
