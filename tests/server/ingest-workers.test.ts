@@ -68,6 +68,14 @@ async function startRimehold(): Promise<void> {
   admin = (await signInRoles(srv, customer.id)).admin;
 }
 
+/** Connects as the box's controller, publishes `count` readings from seq `first`, disconnects; returns the acknowledged seqs. */
+async function connectAndPublish(b: { serial: string; secret: string }, first: number, count: number): Promise<Set<number>> {
+  const c = await device(b.serial, b.secret);
+  const acked = await publishRun(c, b.serial, Array.from({ length: count }, (_, k) => first + k), 2);
+  await c.endAsync();
+  return acked;
+}
+
 beforeAll(async () => {
   if (MISSING) return;
   await mosquitto.start();
@@ -149,26 +157,12 @@ describe.skipIf(MISSING)('two ingest workers on mosquitto', () => {
     const boxes = await Promise.all([1, 2, 3].map((i) => provisioned(`r${i}`)));
     await srv.stop();
     // No ingest runs: the workers' sessions keep what arrives (mosquitto saves it at the clean stop).
-    const queued = await Promise.all(
-      boxes.map(async (b) => {
-        const c = await device(b.serial, b.secret);
-        const acked = await publishRun(c, b.serial, Array.from({ length: 20 }, (_, k) => k + 1), 2);
-        await c.endAsync();
-        return acked;
-      }),
-    );
+    const queued = await Promise.all(boxes.map((b) => connectAndPublish(b, 1, 20)));
     await mosquitto.stop();
     await mosquitto.start();
     await startRimehold();
     // mosquitto 2.0 restores the sessions but not their shared subscriptions: the workers subscribe again.
-    const later = await Promise.all(
-      boxes.map(async (b) => {
-        const c = await device(b.serial, b.secret);
-        const acked = await publishRun(c, b.serial, Array.from({ length: 20 }, (_, k) => k + 101), 2);
-        await c.endAsync();
-        return acked;
-      }),
-    );
+    const later = await Promise.all(boxes.map((b) => connectAndPublish(b, 101, 20)));
     for (const [i, b] of boxes.entries()) await expectStoredOnce(b.box.id, new Set([...(queued[i] ?? []), ...(later[i] ?? [])]), `box ${i + 1}`);
   }, 120_000);
 });
