@@ -91,7 +91,7 @@ const EnvSchema = z.object({
    * Where the embedded broker runs. inline: in the server's own event loop. process: in a child
    * process of its own (server/mqtt/brokerProcess.ts) on the other core, restarted when it dies.
    */
-  MQTT_EMBEDDED_IN: z.enum(['inline', 'process']).default('inline'),
+  MQTT_EMBEDDED_IN: z.enum(['inline', 'process']).default('process'),
   /** Directory of the embedded broker's durable session store (default DATA_DIR/broker). */
   MQTT_PERSISTENCE_DIR: z.string().optional(),
   /**

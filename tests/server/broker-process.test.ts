@@ -14,6 +14,7 @@ import { setDisabled } from '../../server/controllers/service';
 import { EventBus } from '../../server/events/bus';
 import { createTelemetryMetrics } from '../../server/telemetry/metrics';
 import { createLogger } from '../../server/logger';
+import { loadConfig } from '../../server/config';
 import { connectController, metricValue, provisionBox, publishTelemetry, reading, startTelemetryServer, storedRows, waitFor } from './helpers/telemetry';
 
 let srv: RunningServer;
@@ -43,6 +44,28 @@ function alive(pid: number): boolean {
 }
 
 describe('MQTT_EMBEDDED_IN=process', () => {
+  it('is the default (README "Broker"); inline is still accepted and anything else refused', () => {
+    expect(loadConfig({}).MQTT_EMBEDDED_IN).toBe('process');
+    expect(loadConfig({ MQTT_EMBEDDED_IN: 'inline' }).MQTT_EMBEDDED_IN).toBe('inline');
+    expect(() => loadConfig({ MQTT_EMBEDDED_IN: 'thread' })).toThrow();
+  });
+
+  it('forks the broker when the server is started without MQTT_EMBEDDED_IN', async () => {
+    const env = { ...process.env };
+    delete env.MQTT_EMBEDDED_IN;
+    const saved = process.env;
+    process.env = env;
+    const plain = await startTelemetryServer({}).finally(() => {
+      process.env = saved;
+    });
+    try {
+      expect(plain.broker).toBeInstanceOf(BrokerProxy);
+      expect((plain.broker as BrokerProxy).pid).not.toBe(process.pid);
+    } finally {
+      await plain.stop();
+    }
+  });
+
   it('runs the broker in a child process of its own and reports it up', async () => {
     const pid = proxy().pid;
     expect(pid).not.toBeNull();
