@@ -5,13 +5,12 @@
  * and starts it again when it dies. The broker code itself is the same EmbeddedBroker as inline,
  * so the journal, the PUBACK after the durable append and the ACL are unchanged.
  */
-import { fork, type ChildProcess } from 'node:child_process';
-import { createRequire } from 'node:module';
-import { fileURLToPath, pathToFileURL } from 'node:url';
+import type { ChildProcess } from 'node:child_process';
 import { z } from 'zod';
 import type { Config } from '../config';
 import type { TelemetryMetrics } from '../telemetry/metrics';
 import type { BrokerHandle, BrokerOptions } from './broker';
+import { CHILD_START_TIMEOUT_MS, forkTs, IpcRequests, RestartDelay, stopChild } from '../process/child';
 
 /** The part of BrokerOptions that crosses to the broker process as data. */
 export type BrokerProcessOptions = Omit<BrokerOptions, 'models' | 'bus' | 'metrics' | 'logger'>;
@@ -40,15 +39,7 @@ export const FromBrokerProcess = z.discriminatedUnion('type', [
 ]);
 export type FromBrokerProcess = z.infer<typeof FromBrokerProcess>;
 
-const ENTRY = fileURLToPath(new URL('./brokerProcess.ts', import.meta.url));
-/** tsx as an ESM loader, the way the project runs TypeScript (resolved from here, not from the cwd). */
-const TSX_LOADER = pathToFileURL(createRequire(import.meta.url).resolve('tsx')).href;
-/** A broker process that has not listened by then is killed and the start fails. */
-const START_TIMEOUT_MS = 60_000;
-/** A stop that has not ended the process by then kills it (the journal is synced per PUBACK, so nothing acknowledged is lost). */
-const STOP_TIMEOUT_MS = 15_000;
-const RESTART_MIN_MS = 500;
-const RESTART_MAX_MS = 10_000;
+const ENTRY = new URL('./brokerProcess.ts', import.meta.url);
 /** A metrics read waits this long at most for the broker process's answer. */
 const SYNC_TIMEOUT_MS = 1000;
 
@@ -66,7 +57,7 @@ export class BrokerProxy implements BrokerHandle {
   /** The process listened at least once since start(): from then on a death means a restart. */
   private started = false;
   private restartTimer: NodeJS.Timeout | null = null;
-  private restartDelayMs = RESTART_MIN_MS;
+  private readonly restartDelay = new RestartDelay();
   private readonly onRevoked = ({ serial }: { serial: string }) => this.dropController(serial);
   port = 0;
   stallRecoveries = 0;
@@ -77,8 +68,7 @@ export class BrokerProxy implements BrokerHandle {
     return this.child?.pid ?? null;
   }
 
-  private syncId = 0;
-  private syncs = new Map<number, () => void>();
+  private readonly syncs = new IpcRequests(SYNC_TIMEOUT_MS);
 
   constructor(private readonly o: BrokerProxyOptions) {
     // A read of the broker's metrics (GET /metrics, a test) first asks the broker process for its
@@ -92,17 +82,7 @@ export class BrokerProxy implements BrokerHandle {
   private sync(): Promise<void> {
     const child = this.child;
     if (!child?.connected || !this.listening) return Promise.resolve();
-    const id = ++this.syncId;
-    return new Promise<void>((resolve) => {
-      const done = () => {
-        clearTimeout(timer);
-        this.syncs.delete(id);
-        resolve();
-      };
-      const timer = setTimeout(done, SYNC_TIMEOUT_MS);
-      this.syncs.set(id, done);
-      child.send({ type: 'sync', id } satisfies ToBrokerProcess);
-    });
+    return this.syncs.ask(child, (id) => ({ type: 'sync', id }) satisfies ToBrokerProcess);
   }
 
   /** Forks the broker process; resolves its port once it listens. */
@@ -126,12 +106,7 @@ export class BrokerProxy implements BrokerHandle {
 
   private spawn(): Promise<number> {
     const o = this.o;
-    const child = fork(ENTRY, [], {
-      execArgv: ['--import', TSX_LOADER],
-      env: { ...process.env, TZ: 'UTC' },
-      stdio: ['ignore', 'inherit', 'inherit', 'ipc'],
-      serialization: 'json',
-    });
+    const child = forkTs(ENTRY);
     this.child = child;
     const { models: _m, bus: _b, metrics: _x, logger: _l, config, ...options } = o;
     // A restart keeps the port the controllers know (the first start may ask for any free one).
@@ -148,8 +123,8 @@ export class BrokerProxy implements BrokerHandle {
       };
       const deadline = setTimeout(() => {
         child.kill('SIGKILL');
-        settle(new Error(`the broker process did not listen within ${START_TIMEOUT_MS / 1000} s`));
-      }, START_TIMEOUT_MS);
+        settle(new Error(`the broker process did not listen within ${CHILD_START_TIMEOUT_MS / 1000} s`));
+      }, CHILD_START_TIMEOUT_MS);
       child.on('message', (raw: unknown) => {
         const parsed = FromBrokerProcess.safeParse(raw);
         if (!parsed.success) {
@@ -161,10 +136,10 @@ export class BrokerProxy implements BrokerHandle {
           this.port = m.port;
           this.listening = true;
           this.started = true;
-          this.restartDelayMs = RESTART_MIN_MS;
+          this.restartDelay.reset();
           settle(null, m.port);
         } else if (m.type === 'synced') {
-          this.syncs.get(m.id)?.();
+          this.syncs.settle(m.id);
         } else if (m.type === 'failed') {
           settle(new Error(`the broker process failed to start: ${m.message}`));
         } else {
@@ -178,21 +153,20 @@ export class BrokerProxy implements BrokerHandle {
       child.once('exit', (code, signal) => {
         if (this.child === child) this.child = null;
         this.listening = false;
-        for (const done of [...this.syncs.values()]) done();
+        this.syncs.releaseAll();
         o.metrics.connectedControllers.set(0);
         settle(new Error(`the broker process exited (${signal ?? code}) before it listened`));
         // A first start that fails is the caller's error (start() rejects); no restart behind its back.
         if (this.stopping || !this.started) return;
-        o.logger.error({ code, signal, restartInMs: this.restartDelayMs }, 'the broker process died: starting it again');
-        this.scheduleRestart();
+        this.scheduleRestart(code, signal);
       });
     });
   }
 
-  private scheduleRestart(): void {
+  private scheduleRestart(code: number | null, signal: NodeJS.Signals | null): void {
     if (this.restartTimer || this.stopping) return;
-    const delay = this.restartDelayMs;
-    this.restartDelayMs = Math.min(RESTART_MAX_MS, this.restartDelayMs * 2);
+    const delay = this.restartDelay.next();
+    this.o.logger.error({ code, signal, restartInMs: delay }, 'the broker process died: starting it again');
     this.restartTimer = setTimeout(() => {
       this.restartTimer = null;
       if (this.stopping || this.child) return;
@@ -219,13 +193,7 @@ export class BrokerProxy implements BrokerHandle {
     this.o.bus.off('controllerRevoked', this.onRevoked);
     if (this.restartTimer) clearTimeout(this.restartTimer);
     this.restartTimer = null;
-    const child = this.child;
-    if (!child || child.exitCode !== null || child.signalCode !== null) return;
-    const exited = new Promise<void>((resolve) => child.once('exit', () => resolve()));
-    if (child.connected) child.send({ type: 'stop' } satisfies ToBrokerProcess);
-    else child.kill('SIGTERM');
-    const killer = setTimeout(() => child.kill('SIGKILL'), STOP_TIMEOUT_MS);
-    await exited;
-    clearTimeout(killer);
+    // The journal is synced per PUBACK, so a stop that ends in SIGKILL loses nothing acknowledged.
+    await stopChild(this.child, { type: 'stop' } satisfies ToBrokerProcess);
   }
 }

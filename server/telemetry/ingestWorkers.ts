@@ -8,15 +8,14 @@
  * A worker that dies is started again with the same client id: mosquitto kept its session and
  * delivers its unacknowledged messages again, so nothing acknowledged to a controller is lost.
  */
-import { fork, type ChildProcess } from 'node:child_process';
-import { createRequire } from 'node:module';
-import { fileURLToPath, pathToFileURL } from 'node:url';
+import type { ChildProcess } from 'node:child_process';
 import { z } from 'zod';
 import type { Config } from '../config';
 import type { EventBus } from '../events/bus';
 import type { Logger } from '../logger';
 import type { TelemetryMetrics } from './metrics';
 import type { ReadingDto } from '../../shared/schemas/live';
+import { CHILD_START_TIMEOUT_MS, forkTs, IpcRequests, RestartDelay, stopChild } from '../process/child';
 
 /** The shared-subscription group of the ingest workers. */
 export const INGEST_SHARE_GROUP = 'rimehold-ingest';
@@ -61,12 +60,7 @@ export const FromIngestWorker = z.discriminatedUnion('type', [
 ]);
 export type FromIngestWorker = z.infer<typeof FromIngestWorker>;
 
-const ENTRY = fileURLToPath(new URL('./ingestWorker.ts', import.meta.url));
-const TSX_LOADER = pathToFileURL(createRequire(import.meta.url).resolve('tsx')).href;
-const START_TIMEOUT_MS = 60_000;
-const STOP_TIMEOUT_MS = 15_000;
-const RESTART_MIN_MS = 500;
-const RESTART_MAX_MS = 10_000;
+const ENTRY = new URL('./ingestWorker.ts', import.meta.url);
 const SYNC_TIMEOUT_MS = 10_000;
 
 export interface IngestWorkersOptions {
@@ -85,7 +79,7 @@ interface Slot {
   child: ChildProcess | null;
   ready: boolean;
   started: boolean;
-  restartDelayMs: number;
+  restartDelay: RestartDelay;
   restartTimer: NodeJS.Timeout | null;
   /** Readings this worker has committed since the server started (its counts messages). */
   accepted: number;
@@ -94,15 +88,14 @@ interface Slot {
 export class IngestWorkers {
   private readonly slots: Slot[];
   private stopping = false;
-  private syncId = 0;
-  private readonly syncs = new Map<number, () => void>();
+  private readonly syncs = new IpcRequests(SYNC_TIMEOUT_MS);
   /** Times a worker died unexpectedly and was started again. */
   restarts = 0;
   private readonly onBox = (e: { boxId: number }) => this.broadcast({ type: 'boxChanged', boxId: e.boxId });
   private readonly onRevoked = (e: { serial: string; reason: 'disabled' | 'rotated' }) => this.broadcast({ type: 'controllerRevoked', serial: e.serial, reason: e.reason });
 
   constructor(private readonly o: IngestWorkersOptions) {
-    this.slots = Array.from({ length: o.count }, (_, i) => ({ index: i + 1, child: null, ready: false, started: false, restartDelayMs: RESTART_MIN_MS, restartTimer: null, accepted: 0 }));
+    this.slots = Array.from({ length: o.count }, (_, i) => ({ index: i + 1, child: null, ready: false, started: false, restartDelay: new RestartDelay(), restartTimer: null, accepted: 0 }));
   }
 
   /** Forks every worker; resolves once all are subscribed. */
@@ -139,12 +132,7 @@ export class IngestWorkers {
 
   private spawn(s: Slot): Promise<void> {
     const o = this.o;
-    const child = fork(ENTRY, [], {
-      execArgv: ['--import', TSX_LOADER],
-      env: { ...process.env, TZ: 'UTC' },
-      stdio: ['ignore', 'inherit', 'inherit', 'ipc'],
-      serialization: 'json',
-    });
+    const child = forkTs(ENTRY);
     s.child = child;
     s.ready = false;
     const account = workerAccount(o.config, s.index);
@@ -166,8 +154,8 @@ export class IngestWorkers {
       };
       const deadline = setTimeout(() => {
         child.kill('SIGKILL');
-        settle(new Error(`ingest worker ${s.index} did not subscribe within ${START_TIMEOUT_MS / 1000} s`));
-      }, START_TIMEOUT_MS);
+        settle(new Error(`ingest worker ${s.index} did not subscribe within ${CHILD_START_TIMEOUT_MS / 1000} s`));
+      }, CHILD_START_TIMEOUT_MS);
       child.on('message', (raw: unknown) => {
         const parsed = FromIngestWorker.safeParse(raw);
         if (!parsed.success) {
@@ -178,10 +166,10 @@ export class IngestWorkers {
         if (m.type === 'ready') {
           s.ready = true;
           s.started = true;
-          s.restartDelayMs = RESTART_MIN_MS;
+          s.restartDelay.reset();
           settle(null);
         } else if (m.type === 'failed') settle(new Error(`ingest worker ${s.index} failed to start: ${m.message}`));
-        else if (m.type === 'synced') this.syncs.get(m.id)?.();
+        else if (m.type === 'synced') this.syncs.settle(m.id);
         else if (m.type === 'events') {
           for (const e of m.controllers) o.bus.emit('controller', e);
           for (const e of m.readings) o.bus.emit('reading', e);
@@ -199,16 +187,15 @@ export class IngestWorkers {
         s.ready = false;
         settle(new Error(`ingest worker ${s.index} exited (${signal ?? code}) before it subscribed`));
         if (this.stopping || !s.started) return;
-        o.logger.error({ worker: s.index, code, signal, restartInMs: s.restartDelayMs }, 'an ingest worker died: starting it again');
-        this.scheduleRestart(s);
+        this.scheduleRestart(s, code, signal);
       });
     });
   }
 
-  private scheduleRestart(s: Slot): void {
+  private scheduleRestart(s: Slot, code: number | null, signal: NodeJS.Signals | null): void {
     if (s.restartTimer || this.stopping) return;
-    const delay = s.restartDelayMs;
-    s.restartDelayMs = Math.min(RESTART_MAX_MS, s.restartDelayMs * 2);
+    const delay = s.restartDelay.next();
+    this.o.logger.error({ worker: s.index, code, signal, restartInMs: delay }, 'an ingest worker died: starting it again');
     s.restartTimer = setTimeout(() => {
       s.restartTimer = null;
       if (this.stopping || s.child) return;
@@ -229,17 +216,7 @@ export class IngestWorkers {
       this.slots.map((s) => {
         const child = s.child;
         if (!child?.connected || !s.ready) return undefined;
-        const id = ++this.syncId;
-        return new Promise<void>((resolve) => {
-          const done = () => {
-            clearTimeout(timer);
-            this.syncs.delete(id);
-            resolve();
-          };
-          const timer = setTimeout(done, SYNC_TIMEOUT_MS);
-          this.syncs.set(id, done);
-          child.send({ type: 'sync', id } satisfies ToIngestWorker);
-        });
+        return this.syncs.ask(child, (id) => ({ type: 'sync', id }) satisfies ToIngestWorker);
       }),
     );
   }
@@ -258,16 +235,9 @@ export class IngestWorkers {
       this.slots.map(async (s) => {
         if (s.restartTimer) clearTimeout(s.restartTimer);
         s.restartTimer = null;
-        const child = s.child;
-        if (!child || child.exitCode !== null || child.signalCode !== null) return;
-        const exited = new Promise<void>((resolve) => child.once('exit', () => resolve()));
-        if (child.connected) child.send({ type: 'stop' } satisfies ToIngestWorker);
-        else child.kill('SIGTERM');
-        const killer = setTimeout(() => child.kill('SIGKILL'), STOP_TIMEOUT_MS);
-        await exited;
-        clearTimeout(killer);
+        await stopChild(s.child, { type: 'stop' } satisfies ToIngestWorker);
       }),
     );
-    for (const done of [...this.syncs.values()]) done();
+    this.syncs.releaseAll();
   }
 }

@@ -3,7 +3,7 @@
  * into several RFC 2047 encoded words comes back whole, and the plain text survives an attachment.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import nodemailer from 'nodemailer';
+import nodemailer, { type SendMailOptions } from 'nodemailer';
 import { FakeSmtp } from '../../server/mail/fakeSmtp';
 
 let smtp: FakeSmtp;
@@ -15,7 +15,7 @@ beforeAll(async () => {
 });
 afterAll(() => smtp.close());
 
-async function send(mail: nodemailer.SendMailOptions) {
+async function send(mail: SendMailOptions) {
   const t = nodemailer.createTransport({ host: '127.0.0.1', port, secure: false, ignoreTLS: true });
   await t.sendMail({ from: 'Rimehold <no-reply@rimehold.example.com>', to: 'tech@example.test', ...mail });
   t.close();
