@@ -9,6 +9,7 @@ import { SimController } from './controller';
 import type { FleetController } from './fleetFile';
 import { consoleLogger, type SimLogger } from './log';
 import { FAULT_NAMES, THERMISTOR_NAMES, type FaultName, type ThermistorName } from './model/faults';
+import { unsimulatedRefrigerant } from './model/settings';
 
 /** Topic of fault commands in demo mode. */
 export const SIM_FAULT_TOPIC = 'rimehold/v1/sim/fault';
@@ -82,6 +83,12 @@ export async function startFleet(opts: FleetOptions): Promise<Fleet> {
   const firstSeq = opts.firstSeq ?? clock.realStartMs;
   const controllers = new Map<string, SimController>();
   for (const entry of opts.controllers) {
+    // A box the model cannot simulate truthfully (R-744) is left out rather than faked.
+    const unsimulated = unsimulatedRefrigerant(entry.refrigerant);
+    if (unsimulated !== null) {
+      logger.warn(`${entry.serial}: not simulated (${unsimulated})`);
+      continue;
+    }
     const c = new SimController({
       entry,
       url: opts.url,

@@ -34,7 +34,7 @@ export interface BoxModelParams extends BoxSettings {
   /** Which defrost the hardware can do besides off-cycle (a heater or a hot-gas line fitted). */
   defrostHardware: 'none' | 'electric' | 'hot-gas';
   valveFullSteps: number;
-  /** Site elevation, m; the suction transducer is sealed-gauge referenced to local air (TRADE-NOTES §3). */
+  /** Site elevation, m. The simulated transducers are vented gauges: they read against the site's standard atmosphere (gaugeReference 'vented-gauge', docs/device-protocol.md). */
   elevationM: number;
   /** Epoch ms of simulated t = 0 (only for hour-of-day schedules; the model never reads a clock). */
   startEpochMs: number;

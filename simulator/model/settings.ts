@@ -15,6 +15,15 @@ export type SettingsResult =
 /** The lowest evaporating temperature the model reaches below setpoint, K (rated TD plus pump-down margin). */
 const EVAPORATING_MARGIN_K = 25;
 
+/**
+ * Why the model cannot simulate a refrigerant, or null. The model is a subcritical direct-expansion
+ * system with its own condensing unit: it has no gas cooler, flash tank or cascade, so an R-744 box
+ * would be a fake (a pump-down cut-out below the triple point, a condensing clamp near 30 °C).
+ */
+export function unsimulatedRefrigerant(refrigerant: string): string | null {
+  return refrigerant === 'R-744' ? 'R-744 (CO₂) systems are not simulated: the model has no gas cooler, flash tank or cascade' : null;
+}
+
 /** Checks a config request against the box's hardware; returns the settings to apply or why not. */
 export function checkSettings(model: BoxModel, req: SettingsRequest): SettingsResult {
   const p = model.params;
@@ -29,11 +38,9 @@ export function checkSettings(model: BoxModel, req: SettingsRequest): SettingsRe
   }
   const merged: BoxSettings = { ...p, ...next };
   const info = getRefrigerant(merged.refrigerant);
-  // The model is a subcritical direct-expansion system with its own condensing unit: it has no gas
-  // cooler, flash tank or cascade, so an R-744 box would be a fake. Refused, and none is seeded.
-  if (merged.refrigerant === 'R-744') {
-    return { ok: false, error: 'R-744 (CO₂) systems are not simulated: the model has no gas cooler, flash tank or cascade' };
-  }
+  // Refused, and none is seeded or run (simulator/fleet.ts skips one in a fleet file).
+  const unsimulated = unsimulatedRefrigerant(merged.refrigerant);
+  if (unsimulated !== null) return { ok: false, error: unsimulated };
   if (merged.setpointC - EVAPORATING_MARGIN_K < info.validRange.minC) {
     return { ok: false, error: `${merged.refrigerant}: setpoint ${merged.setpointC} °C is too cold for its saturation tables` };
   }

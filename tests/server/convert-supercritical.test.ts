@@ -22,16 +22,44 @@ describe('an R-744 high side above the critical pressure', () => {
     expect(f?.affects).toEqual(['subcoolingK']);
     expect(f?.message).toMatch(/supercritical/i);
     expect(r.flags.some((x) => x.code === 'conversion' && x.affects.includes('subcoolingK'))).toBe(false);
-    // The suction side (2,500 kPa g ≈ 2,601 kPa abs, about −12 °C saturated for CO₂ — CoolProp figure from memory) still converts.
+    // The suction side still converts: 2,500 kPa(g) + 101.325 = 2,601.3 kPa abs, saturated at −10.63 °C
+    // (CoolProp 8.0.0 HEOS::CarbonDioxide), within the engine's 0.1 K.
     expect(r.saturatedSuctionC).not.toBeNull();
-    expect(r.saturatedSuctionC as number).toBeGreaterThan(-14);
-    expect(r.saturatedSuctionC as number).toBeLessThan(-10);
+    expect(Math.abs((r.saturatedSuctionC as number) - -10.63)).toBeLessThanOrEqual(0.05);
   });
-  it('computes subcooling below the critical pressure (7,000 kPa g ≈ 7,101 kPa abs, about 29.3 °C saturated — CoolProp figure from memory, hence the wide band)', () => {
+  it('computes subcooling below the critical pressure', () => {
+    // 7,000 kPa(g) + 101.325 = 7,101.3 kPa abs, saturated at 29.31 °C (CoolProp 8.0.0 HEOS::CarbonDioxide):
+    // a 27 °C liquid line is 2.31 K subcooled.
     const r = { ...reading(7_000), liquidLineC: 27 };
     const out = convertReading(r, box);
     expect(out.flags.some((x) => x.code === 'supercritical')).toBe(false);
-    expect(out.subcoolingK as number).toBeGreaterThan(1.5);
-    expect(out.subcoolingK as number).toBeLessThan(3.5);
+    expect(Math.abs((out.subcoolingK as number) - 2.31)).toBeLessThanOrEqual(0.05);
+  });
+});
+
+describe('conversion notes, stated instead of a silent blank or a clamp', () => {
+  const r404a: BoxInfo = { ...box, serial: 'RH-TEST-404', refrigerant: 'R-404A' };
+
+  it('a liquid-line pressure above a blend\'s table leaves subcooling blank and says where the table ends, not "supercritical"', () => {
+    // CoolProp 8.0.0 HEOS::R404A.mix: the bubble point at 67 °C (where the R-404A table ends) is 3,352.3 kPa abs;
+    // 5,000 kPa(g) lies well above it.
+    const out = convertReading({ ...reading(5_000), suctionKPaG: 300, liquidLineC: 50 }, r404a);
+    expect(out.subcoolingK).toBeNull();
+    const note = out.flags.find((f) => f.code === 'conversion' && f.affects.includes('subcoolingK'));
+    expect(note?.message).toMatch(/R-404A bubble-point pressure .* outside the valid range .*this table ends .* mixture model converged/);
+    expect(out.flags.some((f) => f.code === 'supercritical')).toBe(false);
+    expect(out.conversionNote).toBe(note?.message);
+    // The suction side is unaffected.
+    expect(out.saturatedSuctionC).not.toBeNull();
+  });
+
+  it('an unknown refrigerant leaves every saturation value blank with the reason', () => {
+    const out = convertReading(reading(1_500), { ...box, refrigerant: 'R-12' });
+    expect(out.saturatedSuctionC).toBeNull();
+    expect(out.superheatK).toBeNull();
+    expect(out.subcoolingK).toBeNull();
+    const note = out.flags.find((f) => f.code === 'conversion');
+    expect(note?.message).toBe('unknown refrigerant R-12');
+    expect(note?.affects).toEqual(['saturatedSuctionC', 'superheatK', 'subcoolingK']);
   });
 });

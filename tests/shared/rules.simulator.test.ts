@@ -99,6 +99,10 @@ describe('rules on the simulator (simulator/model, read only)', () => {
     expect(raised).not.toContain('box-air-high');
   });
 
+  it('raise pump-down-failure on the valve-leak-through-severe fault (pump-down never reaches the cut-out)', () => {
+    expect(rules(simulate('cooler', 6, 'valve-leak-through-severe'))).toContain('pump-down-failure');
+  });
+
   it('raise defrost-timed-termination on a freezer whose defrost heater failed', () => {
     expect(rules(simulate('freezer', 26, 'defrost-heater-failed'))).toContain('defrost-timed-termination');
   });

@@ -99,6 +99,17 @@ describe('a simulated controller on a real broker', () => {
     expect(broker.connectedClients).toBe(1); // only the observer is left
   });
 
+  it('leaves an R-744 box of the fleet file unsimulated, with a warning, and runs the others', async () => {
+    // The model has no gas cooler or cascade (simulator/model/settings.ts): an R-744 box would be a fake.
+    const logger = memoryLogger();
+    const co2: FleetController = { ...ENTRY, serial: 'SIM-IT-744', secret: 'it-secret-744', boxId: 3, kind: 'freezer', refrigerant: 'R-744', setpointC: -20 };
+    fleet = await startFleet({ controllers: [co2, ENTRY], url, speed: 60, faultChannel: false, logger });
+    expect([...fleet.controllers.keys()]).toEqual([ENTRY.serial]);
+    expect(logger.lines).toContain('warn SIM-IT-744: not simulated (R-744 (CO₂) systems are not simulated: the model has no gas cooler, flash tank or cascade)');
+    await until(() => seen.some((s) => s.topic === topics.status(ENTRY.serial) && s.text === 'online'));
+    expect(seen.some((s) => s.topic.includes('SIM-IT-744'))).toBe(false);
+  });
+
   it('answers config/set with the applied values, refuses what it cannot apply, and drops junk without an id', async () => {
     const logger = memoryLogger();
     fleet = await startFleet({ controllers: [ENTRY, TXV_ENTRY], url, speed: 60, faultChannel: false, logger });

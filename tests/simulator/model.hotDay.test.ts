@@ -41,8 +41,8 @@ describe('a cooler on a 40 °C day', () => {
     expect(Math.abs(mean(r448a.liquidKPaG) + SEA_LEVEL_KPA - 2484.8)).toBeLessThanOrEqual(10);
   });
 
-  it('keeps its 5 K of subcooling readable from the readings at that head', () => {
-    // params.subcoolingK = 5 K (the model's setting); the readings must give it back through the engine.
+  it('wiring: keeps its 5 K of subcooling readable from the readings at that head', () => {
+    // Wiring, not an outside figure: params.subcoolingK = 5 K is the model's own setting; the readings must give it back through the engine.
     const run = hotDayRun('R-448A');
     const values = run.liquidKPaG.map((kPaG, i) =>
       subcoolingK({ refrigerant: 'R-448A', liquidKPaG: kPaG, liquidLineC: run.liquidLineC[i] ?? Number.NaN, elevationM: 0 }),
