@@ -1,8 +1,8 @@
 /**
  * Sensor quality at ingest: an open thermistor (reads at the cold end of its input), a shorted one
  * (hot end), a reading outside what the sensor can plausibly see in a walk-in, a transducer at an
- * end of its range, and a stuck sensor (the same value, bit-identical, for hours while the
- * compressor cycled). A failed sensor gets a stated reason and nothing is computed from it.
+ * end of its range, and a stuck sensor (the same value, bit-identical, for hours: while the
+ * compressor cycled, or for box air whatever the compressor did). A failed sensor gets a stated reason and nothing is computed from it.
  * Stuck detection keeps a little state per box in memory, bounded by MAX_TRACKED_BOXES.
  */
 import { SUCTION_MAX_KPAG, SUCTION_MIN_KPAG, thermistorFault } from '../../shared/rules/sensors';
@@ -32,8 +32,14 @@ export const PLAUSIBLE_C: Record<ThermistorField, { min: number; max: number }> 
 
 /** An identical value for this long while the compressor cycled is a stuck sensor, ms (the sensor-fault rule's 180 min default). */
 export const STUCK_MIN_MS = 3 * 3_600_000;
-/** Compressor starts needed during the flat line: the system cycled, so a working sensor would have moved (our choice, as shared/rules/sensors.ts). */
+/**
+ * Compressor starts needed during the flat line of a sensor other than box air: the system cycled,
+ * so a working sensor would have moved (our choice). A liquid line in a quiet machine room can sit
+ * still while the system is off; box air cannot (see shared/rules/sensors.ts), so it needs none.
+ */
 export const STUCK_MIN_STARTS = 2;
+/** The sensors judged stuck on a flat line alone, whatever the compressor did. */
+const STUCK_WITHOUT_STARTS: ReadonlySet<SensorField> = new Set(['boxAirC']);
 /** Boxes whose stuck state is kept; the oldest is forgotten beyond this (a forgotten box starts over). */
 export const MAX_TRACKED_BOXES = 50_000;
 /** An absolute transducer at or below this reads a full vacuum: the bottom end of its range, kPa. */
@@ -162,10 +168,12 @@ export class SensorQuality {
       }
       if (started) line.starts++;
       const flatMs = tsMs - line.sinceMs;
-      if (flatMs >= STUCK_MIN_MS && line.starts >= STUCK_MIN_STARTS) {
+      const cycled = line.starts >= STUCK_MIN_STARTS;
+      if (flatMs >= STUCK_MIN_MS && (cycled || STUCK_WITHOUT_STARTS.has(field))) {
         a.failed.add(field);
         const shown = field.endsWith('KPaG') ? `${Math.round(v)} kPa` : fmtC(v);
-        a.flags.push(flag('sensor-stuck', field, method, `stuck (${shown} unchanged for ${(flatMs / 3_600_000).toFixed(1)} h while the compressor cycled)`));
+        const while_ = cycled ? ' while the compressor cycled' : line.starts === 0 && !p.compressorOn ? ' with the compressor off' : '';
+        a.flags.push(flag('sensor-stuck', field, method, `stuck (${shown} unchanged for ${(flatMs / 3_600_000).toFixed(1)} h${while_})`));
       }
     }
     st.lastTsMs = tsMs;

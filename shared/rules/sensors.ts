@@ -1,7 +1,11 @@
 /**
  * sensor-fault: a thermistor at an end of its input (an open NTC reads off-scale cold, a shorted one
  * off-scale hot: TRADE-NOTES §4), a suction transducer at an end of its range, or a box-air reading
- * stuck bit-identical for hours while the compressor cycled (a flat-lined sensor).
+ * stuck bit-identical for hours (a flat-lined sensor). Box air cannot hold one value that long in a
+ * working box whatever the compressor does: cycling it swings, with the compressor off it warms, and
+ * running on it cools. A stuck box-air sensor is also what keeps a compressor from starting (stuck
+ * cold: the box warms unseen) or from stopping (stuck warm: the box freezes), so no compressor
+ * condition is required.
  */
 import type { RuleReading } from '../alarms/types';
 import { MIN_MS, emitStep, fmt1, handleDisabled, newCond, stepCondition, type CondState, type RuleContext } from './condition';
@@ -14,8 +18,6 @@ export const THERMISTOR_SHORTED_C = 129.5;
 export const SUCTION_MIN_KPAG = -100;
 /** Suction readings at or above this are a transducer at its top end, kPa(g) (telemetry limit 14,000). */
 export const SUCTION_MAX_KPAG = 13_900;
-/** Compressor starts needed during a flat box-air reading before it counts as stuck (it cycled: our choice). */
-const STUCK_MIN_STARTS = 2;
 
 /** 'open' / 'shorted' when a thermistor reading is at an end of its input, null when plausible. */
 export function thermistorFault(c: number): 'open' | 'shorted' | null {
@@ -47,8 +49,9 @@ function findFault(st: SensorState, r: RuleReading, stuckMin: number): string | 
     if (coil) return `The coil-inlet thermistor reads ${fmt1(r.coilInletC)} °C: ${coil} circuit.`;
   }
   if (r.suctionKPaG <= SUCTION_MIN_KPAG || r.suctionKPaG >= SUCTION_MAX_KPAG) return `The suction transducer reads ${Math.round(r.suctionKPaG)} kPa(g), at the end of its range.`;
-  if (st.stuckSinceMs !== null && st.startsWhileStuck >= STUCK_MIN_STARTS && r.tsMs - st.stuckSinceMs >= stuckMin * MIN_MS) {
-    return `The box-air reading has not changed (${fmt1(r.boxAirC)} °C) for ${Math.round((r.tsMs - st.stuckSinceMs) / MIN_MS)} min while the compressor cycled: the sensor may be stuck.`;
+  if (st.stuckSinceMs !== null && r.tsMs - st.stuckSinceMs >= stuckMin * MIN_MS) {
+    const compressor = st.startsWhileStuck > 0 ? `the compressor started ${st.startsWhileStuck} times meanwhile` : r.compressorOn ? 'the compressor has run on' : 'the compressor has not started';
+    return `The box-air reading has not changed (${fmt1(r.boxAirC)} °C) for ${Math.round((r.tsMs - st.stuckSinceMs) / MIN_MS)} min and ${compressor}: the sensor may be stuck. Check the box temperature with a thermometer.`;
   }
   return null;
 }

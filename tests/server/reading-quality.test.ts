@@ -99,6 +99,25 @@ describe('failed sensors give no derived value and a stated reason', () => {
     expect(flagsOf(last).some((f) => f.sensor === 'boxAirC')).toBe(false);
     await c.endAsync();
   });
+
+  it('a box-air sensor stuck for over 3 h with the compressor off is flagged: stuck cold, it keeps the compressor from starting while the box warms', async () => {
+    const p = await provisionBox(srv, { refrigerant: 'R-404A' });
+    const c = await connectController(url, p.serial, p.secret);
+    const t0 = Date.now() - 4 * 3_600_000;
+    // Every 10 min for 4 h, the compressor never starts and the box-air reading holds 3.0 °C; the suction line warms as a box left to warm would.
+    const n = 25;
+    for (let i = 0; i < n; i++) {
+      await publishTelemetry(c, p.serial, reading({ ts: new Date(t0 + i * 600_000).toISOString(), boxAirC: 3, compressorOn: false, suctionLineC: 3 + i * 0.3, suctionKPaG: 500 + i * 4 }));
+    }
+    const rows = await rowsWhen(p.box.id, n);
+    expect(flagsOf(rows[5])).toEqual([]);
+    const stuck = flagsOf(rows[n - 1]).find((f) => f.code === 'sensor-stuck');
+    expect(stuck?.sensor).toBe('boxAirC');
+    expect(stuck?.message).toMatch(/Box-air sensor stuck \(3\.0 °C unchanged for 4\.0 h with the compressor off\)/);
+    // The suction line moved: not flagged.
+    expect(flagsOf(rows[n - 1]).some((f) => f.sensor === 'suctionLineC')).toBe(false);
+    await c.endAsync();
+  });
 });
 
 describe('conversion notes', () => {

@@ -42,9 +42,21 @@ describe('sensor-fault', () => {
     expect(raised[0]?.message).toContain('stuck');
   });
 
-  it('does not call a flat box air stuck when the compressor did not cycle', () => {
+  it('raises when box air stays bit-identical for 3 h with the compressor off: a sensor stuck cold keeps the compressor from starting while the box warms', () => {
     const e = new BoxRuleEngine(cooler());
-    expect(of(run(e, T0, 240, { boxAirC: 3.3, compressorOn: false }).events, 'sensor-fault')).toHaveLength(0);
+    const early = run(e, T0, 180, { boxAirC: 3.0, compressorOn: false });
+    expect(of(early.events, 'sensor-fault')).toHaveLength(0);
+    const late = run(e, early.endMs, 2, { boxAirC: 3.0, compressorOn: false });
+    const raised = of(late.events, 'sensor-fault');
+    expect(raised).toHaveLength(1);
+    expect(raised[0]?.atMs).toBe(T0 + 181 * MIN); // 3 h flat (our choice) + 1 min delay
+    expect(raised[0]?.message).toContain('the compressor has not started');
+  });
+
+  it('raises when box air stays bit-identical for 3 h with the compressor running on: a sensor stuck warm can freeze a cooler', () => {
+    const e = new BoxRuleEngine(cooler());
+    const { events } = run(e, T0, 182, { boxAirC: 6.0, compressorOn: true });
+    expect(of(events, 'sensor-fault').map((x) => x.message)).toEqual([expect.stringContaining('the compressor has run on')]);
   });
 
   it('does not call a box air that moves by 0.1 K stuck', () => {

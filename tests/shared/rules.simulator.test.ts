@@ -99,6 +99,18 @@ describe('rules on the simulator (simulator/model, read only)', () => {
     expect(raised).not.toContain('box-air-high');
   });
 
+  it('raise sensor-fault on a box-air thermistor stuck at its value when the fault began, whatever the compressor then does', () => {
+    const m = makeBox({ kind: 'cooler' });
+    m.setFault('sensor-stuck', true, 'boxAirC');
+    const e = new BoxRuleEngine(settingsOf(m));
+    const raised: Array<{ ruleId: string; message: string }> = [];
+    for (let i = 0; i < 5 * 360; i++) {
+      m.step(10);
+      for (const ev of e.onReading(ruleReading(m))) if (ev.kind === 'raise') raised.push({ ruleId: ev.ruleId, message: ev.message });
+    }
+    expect(raised.find((r) => r.ruleId === 'sensor-fault')?.message).toMatch(/box-air reading has not changed .* the sensor may be stuck/);
+  });
+
   it('raise pump-down-failure on the valve-leak-through-severe fault (pump-down never reaches the cut-out)', () => {
     expect(rules(simulate('cooler', 6, 'valve-leak-through-severe'))).toContain('pump-down-failure');
   });
