@@ -1,4 +1,4 @@
-/** Boxes: tenant-scoped loading and the write use cases, with who may change which field. */
+/** Boxes: tenant-scoped loading and the use cases (actor and input in, plain objects out), with who may change which field. */
 import { ForeignKeyConstraintError, Op, type WhereOptions } from 'sequelize';
 import { z } from 'zod';
 import { DefrostSettings, type BoxCreateBody, type BoxDto, type BoxUpdateBody } from '../../shared/schemas/boxes';
@@ -13,6 +13,8 @@ import { HttpProblem, problems } from '../http/problem';
 import { changedKeys } from '../http/patch';
 import { defineList, runList, scopeByCustomer, type ListInputOf } from '../http/list';
 import { toControllerSummary } from '../controllers/service';
+import type { Actor } from '../http/actor';
+import { auditBy } from '../audit/service';
 
 /** A box loaded with its site, customer and controller. */
 export type BoxWithRelations = Box & { site?: Site; customer?: { name: string }; controller?: Controller | null };
@@ -141,10 +143,28 @@ async function siteForBox(models: Models, siteId: number): Promise<Site> {
   return site;
 }
 
-/** Creates a box on an existing site (422 otherwise); its customer is the site's. */
-export async function createBox(models: Models, body: BoxCreateBody): Promise<Box> {
+/** A box the actor may see, presented with its relations and maintenance end; 404 outside the tenant. */
+export async function getBox(models: Models, actor: Actor, id: number): Promise<BoxDto> {
+  return presentBox(models, await loadScopedBox(models, actor.user, id));
+}
+
+async function presentBox(models: Models, b: BoxWithRelations): Promise<BoxDto> {
+  return toBoxDto(b, (await maintenanceUntilByBox(models, [b.id])).get(b.id) ?? null);
+}
+
+async function reloadBox(models: Models, id: number): Promise<BoxDto> {
+  const b = await models.Box.findByPk(id, { include: BOX_INCLUDE });
+  if (!b) throw problems.notFound('box');
+  return presentBox(models, b);
+}
+
+/** Creates a box on an existing site (422 otherwise), its customer the site's, and audits it. */
+export async function createBox(ctx: AppContext, actor: Actor, body: BoxCreateBody): Promise<BoxDto> {
+  const { models } = ctx;
   const site = await siteForBox(models, body.siteId);
-  return models.Box.create({ ...body, customerId: site.customerId });
+  const b: Box = await models.Box.create({ ...body, customerId: site.customerId });
+  await auditBy(models, actor, { action: 'box.create', entityType: 'box', entityId: b.id, customerId: b.customerId, detail: body });
+  return reloadBox(models, b.id);
 }
 
 function fieldErrors(keys: BoxField[], message: string): Record<string, string[]> {
@@ -175,23 +195,20 @@ function assertLimitsOrdered(v: { lowLimitC: number; setpointC: number; highLimi
   throw problems.unprocessable('limits-order', 'Alarm limits out of order', msg, { lowLimitC: [msg], highLimitC: [msg] });
 }
 
-/** What an update did: the fields that changed, with their old and new values. */
-export interface BoxUpdateResult {
-  changed: BoxField[];
-  was: Partial<Record<BoxField, unknown>>;
-  now: Partial<Record<BoxField, unknown>>;
-}
-
 /**
- * Applies a PATCH: only fields whose value differs count as changes; the role decides which may
- * change; the merged limits must stay ordered; a move to another site takes that site's customer.
+ * Applies a PATCH to a box the actor may see (404 otherwise): only fields whose value differs count as
+ * changes; the role decides which may change; the merged limits must stay ordered; a move to another
+ * site takes that site's customer. A real change is announced and audited with the old and new values.
  */
-export async function updateBox(models: Models, user: SessionUser, box: BoxWithRelations, changes: BoxUpdateBody): Promise<BoxUpdateResult> {
+export async function updateBox(ctx: AppContext, actor: Actor, input: { id: number; changes: BoxUpdateBody }): Promise<BoxDto> {
+  const { models } = ctx;
+  const { changes } = input;
+  const box = await loadScopedBox(models, actor.user, input.id);
   const changed = changedKeys<BoxUpdateBody>(changes, box);
-  authorizeChanges(user, box, changed);
+  authorizeChanges(actor.user, box, changed);
+  if (changed.length === 0) return presentBox(models, box);
   const was: Partial<Record<BoxField, unknown>> = Object.fromEntries(changed.map((k) => [k, box[k]]));
   const now: Partial<Record<BoxField, unknown>> = Object.fromEntries(changed.map((k) => [k, changes[k]]));
-  if (changed.length === 0) return { changed, was, now };
   assertLimitsOrdered({
     lowLimitC: changes.lowLimitC ?? box.lowLimitC,
     setpointC: changes.setpointC ?? box.setpointC,
@@ -202,11 +219,14 @@ export async function updateBox(models: Models, user: SessionUser, box: BoxWithR
     values.customerId = (await siteForBox(models, changes.siteId)).customerId;
   }
   await box.update(values);
-  return { changed, was, now };
+  ctx.bus.emit('boxChanged', { boxId: box.id });
+  await auditBy(models, actor, { action: 'box.update', entityType: 'box', entityId: box.id, customerId: box.customerId, detail: { changed: now, was } });
+  return reloadBox(models, box.id);
 }
 
-/** Deletes a box (its controller goes with it); returns the serial of that controller, if any. */
-export async function deleteBox(ctx: AppContext, box: BoxWithRelations): Promise<string | null> {
+/** Deletes a box the actor may see (its controller goes with it, and is revoked at the broker), and audits it. */
+export async function deleteBox(ctx: AppContext, actor: Actor, id: number): Promise<void> {
+  const box = await loadScopedBox(ctx.models, actor.user, id);
   const serial = box.controller?.serial ?? null;
   try {
     await box.destroy();
@@ -215,5 +235,6 @@ export async function deleteBox(ctx: AppContext, box: BoxWithRelations): Promise
     throw err;
   }
   if (serial) ctx.bus.emit('controllerRevoked', { serial, reason: 'disabled' });
-  return serial;
+  ctx.bus.emit('boxChanged', { boxId: box.id });
+  await auditBy(ctx.models, actor, { action: 'box.delete', entityType: 'box', entityId: box.id, customerId: box.customerId, detail: { name: box.name, siteId: box.siteId, controllerSerial: serial } });
 }

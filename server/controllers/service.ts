@@ -1,4 +1,9 @@
-/** Controller provisioning (admin only): create with a one-time secret, rotate it, disable and enable. */
+/**
+ * Controller provisioning (admin only): create with a one-time secret, rotate it, disable and enable,
+ * set the gauge reference. The use cases (`provisionController`, `rotateControllerSecret`,
+ * `setControllerDisabled`, `updateController`) take the actor and their input, audit, and answer
+ * plain objects; `rotateSecret`, `setDisabled` and `setGaugeReference` are their steps on a loaded row.
+ */
 import { Op, UniqueConstraintError, type WhereOptions } from 'sequelize';
 import { z } from 'zod';
 import type { ControllerCreateBody, ControllerSummary, GaugeReference } from '../../shared/schemas/boxes';
@@ -9,6 +14,8 @@ import type { Controller } from '../models';
 import { problems } from '../http/problem';
 import { defineList, runList, scopeByCustomer, type ListInputOf } from '../http/list';
 import { hashDeviceSecret, newDeviceSecret } from './secrets';
+import type { Actor } from '../http/actor';
+import { auditBy } from '../audit/service';
 
 /** Presents a controller without its secret hash. */
 export function toControllerSummary(c: Controller): ControllerSummary {
@@ -106,8 +113,49 @@ export async function loadController(ctx: AppContext, id: number): Promise<Contr
   return c;
 }
 
-/** Provisions a controller for a box that has none; 422 for an unknown box, 409 for a taken box or serial. */
-export async function provisionController(ctx: AppContext, body: ControllerCreateBody): Promise<ProvisionResult> {
+/** What the admin sees once after provisioning or rotating: the controller and its device secret. */
+export interface ProvisionAnswer {
+  controller: ControllerSummary;
+  deviceSecret: string;
+}
+
+async function auditController(ctx: AppContext, actor: Actor, action: string, c: Controller, detail: unknown): Promise<void> {
+  const box = await ctx.models.Box.findByPk(c.boxId, { attributes: ['customerId'] });
+  await auditBy(ctx.models, actor, { action, entityType: 'controller', entityId: c.id, customerId: box?.customerId ?? null, detail });
+}
+
+/** Provisions a controller for a box that has none and audits it; 422 for an unknown box, 409 for a taken box or serial. */
+export async function provisionController(ctx: AppContext, actor: Actor, body: ControllerCreateBody): Promise<ProvisionAnswer> {
+  const { controller, deviceSecret } = await createController(ctx, body);
+  await auditController(ctx, actor, 'controller.create', controller, { serial: controller.serial, boxId: controller.boxId, valveFullSteps: controller.valveFullSteps, firmware: controller.firmware });
+  return { controller: toControllerSummary(controller), deviceSecret };
+}
+
+/** Replaces the secret of a controller (404 when unknown) and audits it; the new secret is answered once. */
+export async function rotateControllerSecret(ctx: AppContext, actor: Actor, id: number): Promise<ProvisionAnswer> {
+  const { controller, deviceSecret } = await rotateSecret(ctx, await loadController(ctx, id));
+  await auditController(ctx, actor, 'controller.rotate-secret', controller, { serial: controller.serial, boxId: controller.boxId });
+  return { controller: toControllerSummary(controller), deviceSecret };
+}
+
+/** Disables or enables a controller (404 when unknown) and audits it. */
+export async function setControllerDisabled(ctx: AppContext, actor: Actor, input: { id: number; disabled: boolean }): Promise<ControllerSummary> {
+  const c = await setDisabled(ctx, await loadController(ctx, input.id), input.disabled);
+  await auditController(ctx, actor, input.disabled ? 'controller.disable' : 'controller.enable', c, { serial: c.serial, boxId: c.boxId });
+  return toControllerSummary(c);
+}
+
+/** Changes a controller's gauge reference (404 when unknown) and audits the change from and to. */
+export async function updateController(ctx: AppContext, actor: Actor, input: { id: number; changes: { gaugeReference: GaugeReference } }): Promise<ControllerSummary> {
+  const c = await loadController(ctx, input.id);
+  const before = c.gaugeReference;
+  await setGaugeReference(ctx, c, input.changes.gaugeReference);
+  await auditController(ctx, actor, 'controller.update', c, { serial: c.serial, gaugeReference: { from: before, to: c.gaugeReference } });
+  return toControllerSummary(c);
+}
+
+/** Creates a controller row and its broker account for a box that has none; 422 for an unknown box, 409 for a taken box or serial. */
+async function createController(ctx: AppContext, body: ControllerCreateBody): Promise<ProvisionResult> {
   const { models } = ctx;
   const box = await models.Box.findByPk(body.boxId);
   if (!box) throw problems.unprocessable('unknown-box', 'Unknown box', `Box ${body.boxId} does not exist.`, { boxId: ['Unknown box'] });

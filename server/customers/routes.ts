@@ -1,21 +1,18 @@
 /** /api/v1/customers: list and get for every role (a manager sees only their own); writes admin only. */
-import { Router, type Request } from 'express';
+import { Router } from 'express';
 import { CustomerBody, type CustomerDto } from '../../shared/schemas/customers';
 import type { AppContext } from '../context';
 import type { Customer } from '../models';
 import { currentUser, requireAuth, requireRole } from '../auth/guards';
+import { actorOf } from '../http/actor';
 import { parseBody, parseId } from '../http/validate';
 import { parseListQuery } from '../http/list';
 import { sentFields } from '../http/patch';
-import { CUSTOMER_LIST, createCustomer, deleteCustomer, listCustomers, loadScopedCustomer, siteCountsOf, toCustomerDto, updateCustomer, type CustomerActor } from './service';
+import { CUSTOMER_LIST, createCustomer, deleteCustomer, listCustomers, loadScopedCustomer, siteCountsOf, toCustomerDto, updateCustomer } from './service';
 
 export { toCustomerDto } from './service';
 
 const CustomerPatchBody = CustomerBody.partial();
-
-function actorOf(req: Request): CustomerActor {
-  return { user: currentUser(req), userId: currentUser(req).id, requestId: typeof req.id === 'string' ? req.id : null };
-}
 
 /** The customers router. */
 export function customerRoutes(ctx: AppContext): Router {

@@ -7,12 +7,11 @@ import type { Customer, Models } from '../models';
 import { scopeWhere } from '../auth/guards';
 import { problems } from '../http/problem';
 import { defineList, runList, type ListInputOf } from '../http/list';
-import { auditBy, type AuditActor } from '../audit/service';
+import { auditBy } from '../audit/service';
+import type { Actor } from '../http/actor';
 
 /** Who acts on customers: the signed-in user and the request id, for the audit trail. */
-export interface CustomerActor extends AuditActor {
-  user: SessionUser;
-}
+export type CustomerActor = Actor;
 
 /** Presents a customer row with its number of sites. */
 export function toCustomerDto(c: Customer, siteCount: number): CustomerDto {

@@ -1,4 +1,4 @@
-/** Sites: tenant-scoped loading, box counts, and the write use cases (admin only). */
+/** Sites: tenant-scoped loading, box counts, and the use cases (writes admin only), each taking the actor and its input and answering plain objects. */
 import { ForeignKeyConstraintError, Op, col, fn } from 'sequelize';
 import { z } from 'zod';
 import type { SiteBody, SiteDto } from '../../shared/schemas/customers';
@@ -10,6 +10,8 @@ import { scopeWhere } from '../auth/guards';
 import { problems } from '../http/problem';
 import { assertCustomerExists } from '../customers/service';
 import { defineList, runList, scopeByCustomer, type ListInputOf } from '../http/list';
+import type { Actor } from '../http/actor';
+import { auditBy } from '../audit/service';
 
 /** A site loaded with its customer (for the customer's name). */
 export type SiteWithCustomer = Site & { customer?: { name: string } };
@@ -75,19 +77,36 @@ export async function boxCountsOf(models: Models, siteIds: number[]): Promise<Ma
   return out;
 }
 
-/** Creates a site of an existing customer (422 when the customer does not exist). */
-export async function createSite(models: Models, body: SiteBody): Promise<Site> {
+/** A site the actor may see, presented with its customer's name and box count; 404 outside the tenant. */
+export async function getSite(models: Models, actor: Actor, id: number): Promise<SiteDto> {
+  return presentSite(models, await loadScopedSite(models, actor.user, id));
+}
+
+async function presentSite(models: Models, s: SiteWithCustomer): Promise<SiteDto> {
+  const counts = await boxCountsOf(models, [s.id]);
+  return toSiteDto(s, s.customer?.name ?? '', counts.get(s.id) ?? 0);
+}
+
+/** Creates a site of an existing customer (422 when the customer does not exist) and audits it. */
+export async function createSite(ctx: AppContext, actor: Actor, body: SiteBody): Promise<SiteDto> {
+  const { models } = ctx;
   await assertCustomerExists(models, body.customerId);
-  return models.Site.create(body);
+  const created = await models.Site.create(body);
+  await auditBy(models, actor, { action: 'site.create', entityType: 'site', entityId: created.id, customerId: created.customerId, detail: body });
+  return presentSite(models, await loadScopedSite(models, actor.user, created.id));
 }
 
 /**
- * Applies the sent fields to a site. Moving the site to another customer moves its boxes too
- * (boxes.customer_id is a copy of the site's, used for tenant scoping). Returns the ids of the
- * site's boxes when something the ingest caches per box (elevation, tenant) changed, else [].
+ * Applies the sent fields to a site the actor may see (404 otherwise) and audits it. Moving the site
+ * to another customer moves its boxes too (boxes.customer_id is a copy of the site's, used for tenant
+ * scoping). When something the ingest caches per box (elevation, tenant) changed, every box of the
+ * site is announced as changed.
  */
-export async function updateSite(ctx: AppContext, site: Site, changes: Partial<SiteBody>): Promise<number[]> {
+export async function updateSite(ctx: AppContext, actor: Actor, input: { id: number; changes: Partial<SiteBody> }): Promise<SiteDto> {
   const { models } = ctx;
+  const { changes } = input;
+  const site = await loadScopedSite(models, actor.user, input.id);
+  const fromCustomerId = site.customerId;
   const movesCustomer = changes.customerId !== undefined && changes.customerId !== site.customerId;
   if (movesCustomer && changes.customerId !== undefined) await assertCustomerExists(models, changes.customerId);
   const elevationChanged = changes.elevationM !== undefined && changes.elevationM !== site.elevationM;
@@ -95,13 +114,21 @@ export async function updateSite(ctx: AppContext, site: Site, changes: Partial<S
     await site.update(changes, { transaction });
     if (movesCustomer) await models.Box.update({ customerId: site.customerId }, { where: { siteId: site.id }, transaction });
   });
-  if (!movesCustomer && !elevationChanged) return [];
-  const boxes = await models.Box.findAll({ attributes: ['id'], where: { siteId: site.id } });
-  return boxes.map((b) => b.id);
+  if (movesCustomer || elevationChanged) {
+    const boxes = await models.Box.findAll({ attributes: ['id'], where: { siteId: site.id } });
+    for (const b of boxes) ctx.bus.emit('boxChanged', { boxId: b.id });
+  }
+  await auditBy(models, actor, { action: 'site.update', entityType: 'site', entityId: site.id, customerId: site.customerId, detail: { ...changes, fromCustomerId } });
+  // Reloaded: a move to another customer changes the name shown.
+  const fresh = await models.Site.findByPk(site.id, { include: SITE_INCLUDE });
+  if (!fresh) throw problems.notFound('site');
+  return presentSite(models, fresh);
 }
 
-/** Deletes a site without boxes; 409 while it still has boxes. */
-export async function deleteSite(models: Models, site: Site): Promise<void> {
+/** Deletes a site the actor may see that has no boxes, and audits it; 409 while it still has boxes. */
+export async function deleteSite(ctx: AppContext, actor: Actor, id: number): Promise<void> {
+  const { models } = ctx;
+  const site = await loadScopedSite(models, actor.user, id);
   const boxes = await models.Box.count({ where: { siteId: site.id } });
   if (boxes > 0) throw problems.conflict(`Site "${site.name}" still has ${boxes} box(es); delete or move them first.`);
   try {
@@ -110,4 +137,5 @@ export async function deleteSite(models: Models, site: Site): Promise<void> {
     if (err instanceof ForeignKeyConstraintError) throw problems.conflict(`Site "${site.name}" still has records that refer to it and cannot be deleted.`);
     throw err;
   }
+  await auditBy(models, actor, { action: 'site.delete', entityType: 'site', entityId: site.id, customerId: site.customerId, detail: { name: site.name } });
 }

@@ -1,6 +1,7 @@
 /** Plain-language words for alarm rules, states and priorities, and alarm time formatting. */
 import type { AlarmPriority, AlarmRuleId, AlarmState } from '@shared/alarms/types';
 import { CAUTIONS } from '@shared/safety';
+import { dateTimeText } from './time';
 
 export interface RuleText {
   /** Short name for lists. */
@@ -101,15 +102,7 @@ export function canAcknowledge(state: AlarmState): boolean {
 
 /** "3 Dec 2026, 14:05 CST" in the given IANA zone (the browser's when none), zone always named. */
 export function alarmTimeText(iso: string | null | undefined, timeZone?: string | null): string {
-  if (!iso) return '—';
-  const d = new Date(iso);
-  if (Number.isNaN(d.getTime())) return '—';
-  const opts: Intl.DateTimeFormatOptions = { day: 'numeric', month: 'short', year: 'numeric', hour: '2-digit', minute: '2-digit', timeZoneName: 'short' };
-  try {
-    return d.toLocaleString(undefined, { ...opts, timeZone: timeZone ?? undefined });
-  } catch {
-    return d.toLocaleString(undefined, opts);
-  }
+  return dateTimeText(iso, timeZone);
 }
 
 /** The rule's value with its unit ("6.4 K", "12 starts/h"); temperatures are left to the caller's unit formatter. */

@@ -19,6 +19,7 @@ import type { PeriodIso } from '@shared/schemas/cycles';
 import type { AlarmPriority } from '@shared/alarms/types';
 import { EVAPORATOR_SUPERHEAT_FLOOR_K, temperatureDeltaForDisplay, temperatureDeltaUnit, temperatureForDisplay, temperatureUnit, type UnitSystem } from '@shared/field';
 import { SUPERHEAT_HIGH_BAND_K, SUPERHEAT_LOW_BAND_K } from '@shared/rules/defaults';
+import { siteClockText, siteTimeText } from '@/lib/time';
 
 export type ChartOption = ComposeOption<
   LineSeriesOption | GridComponentOption | TooltipComponentOption | DataZoomComponentOption | LegendComponentOption | MarkAreaComponentOption | MarkLineComponentOption
@@ -106,6 +107,8 @@ export interface ChartInput {
   alarms: readonly AlarmMark[];
   compact: boolean;
   dark: boolean;
+  /** The site's IANA zone: the time axis and the tooltip read in it, the tooltip naming it (UTC when absent). */
+  timeZone?: string | null;
 }
 
 function palette(dark: boolean) {
@@ -227,6 +230,12 @@ export function buildChartOption(inp: ChartInput): ChartOption {
 
   const zoomWindow = inp.zoom ? { startValue: inp.zoom.startMs, endValue: inp.zoom.endMs } : { start: 0, end: 100 };
   const axisLabel = { color: c.text, fontSize: 11 };
+  const zone = inp.timeZone ?? null;
+  // Ticks in the site's zone (not this device's): the clock alone within a day or so, else with the date.
+  const spanMs = (inp.zoom ? inp.zoom.endMs - inp.zoom.startMs : inp.rangeToMs - inp.rangeFromMs) || 0;
+  const tick = (v: number) => siteClockText(v, zone, spanMs > 30 * HOUR);
+  // The tooltip's heading: the site time with its zone named (and the date once older than 20 h).
+  const pointerLabel = { formatter: (p: { value: unknown }) => siteTimeText(new Date(Number(p.value)).toISOString(), zone) };
   return {
     animation: false,
     textStyle: { fontFamily: 'Roboto, system-ui, sans-serif', color: c.text },
@@ -245,7 +254,8 @@ export function buildChartOption(inp: ChartInput): ChartOption {
       min: inp.rangeFromMs,
       max: inp.rangeToMs,
       axisLine: { lineStyle: { color: c.grid } },
-      axisLabel: { ...axisLabel, show: g === 2, hideOverlap: true },
+      axisLabel: { ...axisLabel, show: g === 2, hideOverlap: true, formatter: tick },
+      axisPointer: { label: pointerLabel },
       axisTick: { show: g === 2 },
       splitLine: { show: false },
     })),

@@ -19,11 +19,21 @@ export function ageSeconds(iso: string | null | undefined, nowMs: number): numbe
   return Number.isNaN(t) ? Number.POSITIVE_INFINITY : Math.max(0, (nowMs - t) / 1000);
 }
 
-export function dateTimeText(iso: string | null | undefined, timeZone?: string): string {
+/**
+ * A date and time with its zone always named ("3 Dec 2026, 14:05 CET"): in `timeZone` (an IANA name,
+ * e.g. the site's) when given, else in this device's zone. '—' when missing.
+ */
+export function dateTimeText(iso: string | null | undefined, timeZone?: string | null): string {
   if (!iso) return '—';
   const d = new Date(iso);
   if (Number.isNaN(d.getTime())) return '—';
-  return d.toLocaleString(undefined, { dateStyle: 'medium', timeStyle: 'short', timeZone });
+  const opts: Intl.DateTimeFormatOptions = { day: 'numeric', month: 'short', year: 'numeric', hour: '2-digit', minute: '2-digit', timeZoneName: 'short' };
+  try {
+    return d.toLocaleString(undefined, { ...opts, timeZone: timeZone || undefined });
+  } catch {
+    // An unknown zone name: this device's zone, still named.
+    return d.toLocaleString(undefined, opts);
+  }
 }
 
 /** Intl formatters are costly to build (tens of µs); one per zone and style is kept. */
@@ -52,4 +62,25 @@ export function siteTimeText(iso: string | null | undefined, timeZone: string | 
   const t = Date.parse(iso);
   if (Number.isNaN(t)) return '—';
   return siteFormatter(timeZone || 'UTC', Math.abs(nowMs - t) > 20 * 3_600_000).format(t);
+}
+
+const clockFormatters = new Map<string, Intl.DateTimeFormat>();
+/**
+ * A chart tick in the site's zone, without the zone (the chart names it once): "14:05", or
+ * "3 Dec 14:05" with `withDate`. `timeZone` is an IANA name (UTC when absent or unknown).
+ */
+export function siteClockText(ms: number, timeZone: string | null | undefined, withDate = false): string {
+  const zone = timeZone || 'UTC';
+  const key = `${zone}|${withDate ? 'd' : 't'}`;
+  let f = clockFormatters.get(key);
+  if (!f) {
+    const opts: Intl.DateTimeFormatOptions = { hour: '2-digit', minute: '2-digit', hourCycle: 'h23', ...(withDate ? { day: 'numeric', month: 'short' } : {}) };
+    try {
+      f = new Intl.DateTimeFormat(undefined, { ...opts, timeZone: zone });
+    } catch {
+      f = new Intl.DateTimeFormat(undefined, { ...opts, timeZone: 'UTC' });
+    }
+    clockFormatters.set(key, f);
+  }
+  return f.format(ms);
 }

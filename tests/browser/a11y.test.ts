@@ -137,7 +137,7 @@ async function layoutFaults(page: Page): Promise<string[]> {
     const main = doc.querySelector('main.content');
     const heading = doc.querySelector('main.content h1, main.content h2');
     if (main && heading && heading.getBoundingClientRect().left - main.getBoundingClientRect().left < 8) out.push('heading flush against the content edge');
-    for (const a of Array.from(doc.querySelectorAll('main.content table a, main.content .n-card a'))) {
+    for (const a of Array.from(doc.querySelectorAll('main.content table a, main.content .n-card a, main.content [data-test="list-cards"] a'))) {
       if (a.matches(':focus-visible')) continue;
       if (view.getComputedStyle(a).textDecorationLine.includes('underline')) out.push(`underlined link "${(a.textContent ?? '').trim().slice(0, 40)}"`);
     }

@@ -64,6 +64,8 @@ describe('box page chart and cycle timers', () => {
         await page.locator('[data-test="range-6h"]').click();
         await page.locator('[data-test="readings-chart"] canvas').first().waitFor({ timeout: 15_000 });
         await expect.poll(() => page.locator('[data-test="chart-resolution"]').innerText(), { timeout: 10_000 }).toContain('every reading');
+        // The chart reads in the site's zone and says which (the browser runs in UTC).
+        await expect.poll(() => page.locator('[data-test="chart-zone"]').innerText(), { timeout: 10_000 }).toContain(p.site.timeZone);
         await expect.poll(() => page.locator('[data-test="cycle-compressor"]').innerText(), { timeout: 10_000 }).toMatch(/^Running for (9|10|11) min$/);
         expect(await page.locator('[data-test="cycle-defrost-last"]').innerText()).toMatch(/^Ended 1 h (09|10|11) min ago$/);
         // Next defrost: the 90-min-old start + the box's 6 h interval (tests/server/helpers/app boxBody) → in about 4 h 30 min.

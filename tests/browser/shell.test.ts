@@ -185,3 +185,74 @@ describe('sign-in page', () => {
     }
   });
 });
+
+describe('polish on a wide screen', () => {
+  interface Geo {
+    document: {
+      documentElement: { scrollHeight: number };
+      querySelector(s: string): { getBoundingClientRect(): { top: number; bottom: number } } | null;
+    };
+    scrollY: number;
+    innerHeight: number;
+    scrollTo(x: number, y: number): void;
+  }
+  /** Where the nav column ends and the page ends (document px), and where the nav sits in the viewport, scrolled to the bottom. */
+  async function columnAtBottom(page: Page) {
+    return page.evaluate(() => {
+      const g = globalThis as unknown as Geo;
+      g.scrollTo(0, g.document.documentElement.scrollHeight);
+      const sider = g.document.querySelector('aside.sider')?.getBoundingClientRect();
+      // The sticky part of the column (brand, nav, foot), which scrolls on its own when the nav is long.
+      const nav = g.document.querySelector('aside.sider .sider-inner')?.getBoundingClientRect();
+      return { siderBottom: (sider?.bottom ?? 0) + g.scrollY, pageBottom: g.document.documentElement.scrollHeight, navTop: nav?.top ?? -1, navBottom: nav?.bottom ?? -1, viewport: g.innerHeight, scrolled: g.scrollY };
+    });
+  }
+
+  it('the navigation column runs to the bottom of a long page, its nav staying in view', async () => {
+    const { context, page, pageErrors } = await newPage(browser, srv.url, DESKTOP);
+    try {
+      await signInUi(page, accounts.admin.email, accounts.admin.password);
+      await page.locator('[data-test="box-card"]').first().waitFor();
+      // A page three viewports long.
+      await page.addStyleTag({ content: 'main.content::after { content: ""; display: block; height: 2400px; }' });
+      const at = await columnAtBottom(page);
+      expect(at.scrolled).toBeGreaterThan(1000);
+      expect(at.siderBottom).toBeGreaterThanOrEqual(at.pageBottom - 1);
+      // Within a pixel: the scroll position may be fractional.
+      expect(at.navTop).toBeGreaterThanOrEqual(-1);
+      expect(at.navBottom).toBeLessThanOrEqual(at.viewport + 1);
+      await page.screenshot({ path: resultsPath('shell-long-page.png'), fullPage: true });
+      // The check sees a column that stops short (so it can fail).
+      await page.addStyleTag({ content: 'aside.sider { align-self: flex-start !important; }' });
+      const short = await columnAtBottom(page);
+      expect(short.siderBottom).toBeLessThan(short.pageBottom - 1);
+      expect(pageErrors).toEqual([]);
+    } finally {
+      await context.close();
+    }
+  });
+
+  it("links in a list table are in the theme's colour, not the browser's blue underline, and underline on hover", async () => {
+    const { context, page, pageErrors } = await newPage(browser, srv.url, DESKTOP);
+    try {
+      await signInUi(page, accounts.admin.email, accounts.admin.password);
+      await page.locator('[data-test="nav-customers"]').click();
+      const link = page.locator('[data-test="list-table"] td a').first();
+      await link.waitFor();
+      await page.mouse.move(0, 0);
+      const style = () => link.evaluate((a) => {
+        const s = (globalThis as unknown as { getComputedStyle(e: unknown): { textDecorationLine: string; color: string } }).getComputedStyle(a);
+        return { line: s.textDecorationLine, color: s.color };
+      });
+      const rest = await style();
+      expect(rest.line).not.toContain('underline');
+      // Chromium's default link blue.
+      expect(rest.color).not.toBe('rgb(0, 0, 238)');
+      await link.hover();
+      expect((await style()).line).toContain('underline');
+      expect(pageErrors).toEqual([]);
+    } finally {
+      await context.close();
+    }
+  });
+});

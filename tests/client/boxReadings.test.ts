@@ -9,7 +9,7 @@ import BoxCard from '@/components/BoxCard.vue';
 import BoxDetailView from '@/views/boxes/BoxDetailView.vue';
 import { useFleetStore } from '@/stores/fleet';
 import { installHttpWiring } from '@/api/wiring';
-import type { FleetBoxStatus } from '@shared/schemas/live';
+import type { FleetBoxStatus, ReadingFlag } from '@shared/schemas/live';
 import type { BoxDto } from '@shared/schemas/boxes';
 import { json, mountView, problem, setup, stubFetch, testText } from './helpers';
 import { makeBox, makeReading, makeStatus } from './boxFixtures';
@@ -137,5 +137,49 @@ describe('box page readings', () => {
   it('says "No controller" for a box with none', async () => {
     const w = await openDetail(makeStatus({ controllerSerial: null, online: false, latest: null }), makeBox({ controller: null }));
     expect(w.text()).toContain('No controller · never reported');
+  });
+});
+
+describe('box page reading quality', () => {
+  // Flag texts as server/telemetry/quality.ts and convert.ts write them (wiring: the page shows the stored words).
+  const open: ReadingFlag = { code: 'sensor-open', sensor: 'suctionLineC', affects: ['suctionLineC', 'superheatK'], message: 'Suction-line sensor open (reads −60.0 °C) — no superheat' };
+  const boxAir: ReadingFlag = { code: 'sensor-out-of-range', sensor: 'boxAirC', affects: ['boxAirC'], message: 'Box-air sensor out of range (reads −55.0 °C, plausible −50.0 °C to 60.0 °C)' };
+  const supercritical: ReadingFlag = { code: 'supercritical', affects: ['subcoolingK'], message: 'High side supercritical: no saturation and no subcooling (R-744 is supercritical)' };
+  const fieldOf = (w: Awaited<ReturnType<typeof openDetail>>, field: string) => w.find(`.values [data-field="${field}"]`);
+
+  it('shows a failed sensor\'s reason beside the value it blanks, and a reason without a value row below the values', async () => {
+    const w = await openDetail(makeStatus({ latest: makeReading({ suctionLineC: -60, superheatK: null, flags: [open, boxAir] }) }));
+    expect(testText(w, 'detail-superheat')).toBe('—');
+    expect(fieldOf(w, 'superheatK').find('[data-test="reading-quality"]').text()).toBe(open.message);
+    // Shown once: not again beside the suction line, nor in the list below.
+    expect(fieldOf(w, 'suctionLineC').find('[data-test="reading-quality"]').exists()).toBe(false);
+    const below = w.findAll('.values ~ [data-test="reading-quality"]');
+    expect(below.map((x) => x.text())).toEqual([boxAir.message]);
+  });
+
+  it('shows a two-thermistor blend\'s glide warning beside its superheat, as a note rather than a fault', async () => {
+    const glide: ReadingFlag = { code: 'glide', affects: ['superheatK', 'saturatedSuctionC'], message: 'R-448A glides about 6.3 K here: superheat is taken against the dew point (coil inlet + glide), not outlet − inlet (12.0 K)' };
+    const w = await openDetail(makeStatus({ refrigerant: 'R-448A', latest: makeReading({ superheatK: 5.7, flags: [glide] }) }), makeBox({ refrigerant: 'R-448A' }));
+    const item = fieldOf(w, 'superheatK').find('[data-test="reading-quality"] li');
+    expect(item.text()).toBe(glide.message);
+    expect(item.classes()).toContain('note');
+    expect(testText(w, 'detail-superheat')).toBe('5.7 K');
+  });
+
+  it('names an R-744 high side above the critical pressure: gas-cooler outlet, and no subcooling with the reason', async () => {
+    const latest = makeReading({ liquidKPaG: 9000, liquidLineC: 33, subcoolingK: null, flags: [supercritical] });
+    const w = await openDetail(makeStatus({ refrigerant: 'R-744', latest }), makeBox({ refrigerant: 'R-744' }));
+    expect(fieldOf(w, 'liquidLineC').find('dt').text()).toBe('Gas-cooler outlet');
+    expect(testText(w, 'detail-liquid-line')).toBe('33.0 °C');
+    expect(testText(w, 'detail-subcooling')).toBe('none (supercritical)');
+    expect(fieldOf(w, 'subcoolingK').find('[data-test="reading-quality"]').text()).toBe(supercritical.message);
+  });
+
+  it('keeps a blank subcooling row with its reason when the liquid-line sensor failed', async () => {
+    const shorted: ReadingFlag = { code: 'sensor-shorted', sensor: 'liquidLineC', affects: ['liquidLineC', 'subcoolingK'], message: 'Liquid-line sensor shorted (reads 130.0 °C) — no subcooling' };
+    const w = await openDetail(makeStatus({ latest: makeReading({ liquidKPaG: 1500, liquidLineC: 130, subcoolingK: null, flags: [shorted] }) }));
+    expect(fieldOf(w, 'liquidLineC').find('dt').text()).toBe('Liquid line');
+    expect(testText(w, 'detail-subcooling')).toBe('—');
+    expect(fieldOf(w, 'subcoolingK').find('[data-test="reading-quality"]').text()).toBe(shorted.message);
   });
 });

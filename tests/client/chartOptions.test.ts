@@ -147,3 +147,33 @@ describe('zoom', () => {
     expect(merged.map((p) => Date.parse(p.ts) - T0)).toEqual([0, Q + 60_000, Q + 120_000, 2 * Q, 3 * Q]);
   });
 });
+
+describe('site time zone', () => {
+  type AxisFormatter = (v: number) => string;
+  type PointerFormatter = (p: { value: unknown }) => string;
+  function bottomAxis(opt: ReturnType<typeof buildChartOption>) {
+    const axes = opt.xAxis as Array<{ axisLabel?: { show?: boolean; formatter?: unknown }; axisPointer?: { label?: { formatter?: unknown } } }>;
+    const a = axes.find((x) => x.axisLabel?.show);
+    if (!a) throw new Error('no labelled time axis');
+    return a;
+  }
+
+  it("labels the time axis in the site's zone, not this device's, and names the zone in the tooltip", () => {
+    // America/Chicago is UTC−6 in January (IANA tz database): 18:00 UTC is 12:00 there.
+    const at = Date.parse('2030-01-15T18:00:00.000Z');
+    const opt = buildChartOption(input({ timeZone: 'America/Chicago' }));
+    const axis = bottomAxis(opt);
+    expect((axis.axisLabel?.formatter as AxisFormatter)(at)).toBe('12:00');
+    const head = (axis.axisPointer?.label?.formatter as PointerFormatter)({ value: at });
+    expect(head).toMatch(/12:00/);
+    expect(head).toMatch(/CST|GMT-6/);
+    // Europe/Berlin (UTC+1 in January): the same instant reads 19:00.
+    expect((bottomAxis(buildChartOption(input({ timeZone: 'Europe/Berlin' }))).axisLabel?.formatter as AxisFormatter)(at)).toBe('19:00');
+  });
+
+  it('adds the date to the ticks over a span of several days', () => {
+    const at = Date.parse('2030-01-15T18:00:00.000Z');
+    const week = buildChartOption(input({ timeZone: 'America/Chicago', rangeFromMs: T0 - 6 * 24 * H, rangeToMs: T0 + 24 * H }));
+    expect((bottomAxis(week).axisLabel?.formatter as AxisFormatter)(at)).toMatch(/15 Jan|Jan 15/);
+  });
+});

@@ -12,7 +12,7 @@ import { useFleetStore } from '@/stores/fleet';
 import { useAlarmsStore } from '@/stores/alarms';
 import { DRIFT_BAND_K, STALE_AFTER_S, fleetState, type FleetState } from '@/lib/boxStatus';
 import { gridWindow } from '@/composables/useVirtualGrid';
-import { siteTimeText } from '@/lib/time';
+import { dateTimeText, siteTimeText } from '@/lib/time';
 import type { AlarmDto } from '@shared/schemas/alarms';
 import type { FleetBoxStatus } from '@shared/schemas/live';
 import { ALARM_RULES } from '@shared/alarms/types';
@@ -296,5 +296,17 @@ describe('siteTimeText', () => {
     expect(old).toMatch(/Jan/);
     expect(old).toMatch(/CST|GMT-6/);
     expect(siteTimeText(null, 'UTC', NOW_MS)).toBe('—');
+  });
+});
+
+describe('dateTimeText', () => {
+  it('names the zone on every date and time, in the given site zone or else this device’s', () => {
+    // America/Chicago is UTC−6 in January (IANA tz database).
+    const t = dateTimeText('2030-01-15T18:05:00.000Z', 'America/Chicago');
+    expect(t).toMatch(/12:05/);
+    expect(t).toMatch(/CST|GMT-6/);
+    // The tests run with TZ=UTC: without a zone the device's is used, and named.
+    expect(dateTimeText('2030-01-15T18:05:00.000Z')).toMatch(/(18:05|6:05 PM).*(UTC|GMT)/);
+    expect(dateTimeText(null)).toBe('—');
   });
 });
