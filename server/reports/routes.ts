@@ -1,13 +1,14 @@
 /**
  * /api/v1/reports/weekly: the sent weekly reports (an admin sees all, anyone else the ones mailed to
- * them), and POST /send for an admin to send a site's (or every site's) week now. Sending keeps the
- * once-per-recipient-site-and-week rule, so a second send of the same week mails nobody again.
+ * them; `?siteId=` for one site's), and POST /send for an admin to send a site's (or every site's)
+ * week now. Sending keeps the once-per-recipient-site-and-week rule, so a second send of the same
+ * week mails nobody again.
  */
 import { Router } from 'express';
-import { WeeklySendBody } from '../../shared/schemas/trends';
+import { WeeklyReportsQuery, WeeklySendBody } from '../../shared/schemas/trends';
 import type { AppContext } from '../context';
 import { currentUser, requireAuth, requireRole } from '../auth/guards';
-import { pageOf, pageResult, parseBody } from '../http/validate';
+import { pageOf, pageResult, parseBody, parseQuery } from '../http/validate';
 import { problems } from '../http/problem';
 import { audit } from '../audit/service';
 import { isValidIsoWeek, lastFullIsoWeek } from '../../shared/records/trends';
@@ -19,7 +20,8 @@ export function reportRoutes(ctx: AppContext): Router {
 
   r.get('/weekly', requireAuth, async (req, res) => {
     const p = pageOf(req);
-    const { items, total } = await listWeeklyReports(ctx.sequelize, currentUser(req), p);
+    const q = parseQuery(WeeklyReportsQuery, req);
+    const { items, total } = await listWeeklyReports(ctx.sequelize, currentUser(req), p, q.siteId);
     res.json(pageResult(items, total, p));
   });
 

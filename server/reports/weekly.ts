@@ -223,9 +223,10 @@ export async function runWeeklyReports(ctx: AppContext, nowMs = Date.now()): Pro
   return out;
 }
 
-/** Sent (and failed) reports, newest first: all of them for an admin, a user's own otherwise. */
-export async function listWeeklyReports(sequelize: Sequelize, user: SessionUser, page: { offset: number; pageSize: number }): Promise<{ items: WeeklyReportDto[]; total: number }> {
-  const own = user.role === 'admin' ? { sql: '1=1', replacements: [] as number[] } : { sql: 'w.recipient_user_id = ?', replacements: [user.id] };
+/** Sent (and failed) reports, newest first: all of them for an admin, a user's own otherwise; with siteId, that site's only. */
+export async function listWeeklyReports(sequelize: Sequelize, user: SessionUser, page: { offset: number; pageSize: number }, siteId?: number): Promise<{ items: WeeklyReportDto[]; total: number }> {
+  const mine = user.role === 'admin' ? { sql: '1=1', replacements: [] as number[] } : { sql: 'w.recipient_user_id = ?', replacements: [user.id] };
+  const own = siteId === undefined ? mine : { sql: `${mine.sql} AND w.site_id = ?`, replacements: [...mine.replacements, siteId] };
   const rows = await sequelize.query<Record<string, string | number | null>>(
     `SELECT w.id, w.recipient_user_id, w.recipient_email, w.site_id, s.name AS site_name, w.iso_week, w.status, w.attempts, w.error,
             DATE_FORMAT(w.created_at, '%Y-%m-%dT%H:%i:%s.%fZ') AS created, DATE_FORMAT(w.sent_at, '%Y-%m-%dT%H:%i:%s.%fZ') AS sent

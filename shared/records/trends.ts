@@ -259,9 +259,11 @@ export function excursionFigures(buckets: readonly RollupBucket[], limitC: numbe
 function summaryOfTotals(t: Totals, defrostCount: number) {
   return {
     coveredMin: round(t.coveredMs / MIN),
+    inRangeMin: round(t.inRangeMs / MIN),
     timeInRangePercent: pct(t.inRangeMs, t.coveredMs),
     minutesAboveLimit: round(t.aboveMs / MIN),
     compressorDutyPercent: pct(t.compressorMs, t.coveredMs),
+    compressorMin: round(t.compressorMs / MIN),
     doorOpenMin: round(t.doorMs / MIN),
     defrostCount,
   };
@@ -282,18 +284,21 @@ export function alarmFigures(alarms: readonly AlarmFact[]): Pick<TrendSummaryDto
   return { alarmCount: alarms.length, alarmsByRule: byRule, acknowledgedCount: ackN, meanTimeToAckMin: ackN ? round(ackSum / ackN / MIN) : null };
 }
 
-/** Several boxes' summaries as one: times add up, percentages are weighted by covered time, alarms merge. */
+/**
+ * Several boxes' summaries as one: times add up, percentages are recomputed from the summed minutes
+ * (not from the boxes' rounded percentages, which can move a site's figure by 0.1 point), alarms merge.
+ */
 export function combineSummaries(items: readonly TrendSummaryDto[], alarms: readonly AlarmFact[]): TrendSummaryDto {
   let covered = 0;
   let inRange = 0;
-  let dutyMin = 0;
+  let compressor = 0;
   let dutyCovered = 0;
   const out = { minutesAboveLimit: 0, doorOpenMin: 0, defrostCount: 0, excursionCount: 0, longestExcursionMin: 0 };
   for (const s of items) {
     covered += s.coveredMin;
-    if (s.timeInRangePercent !== null) inRange += (s.timeInRangePercent / 100) * s.coveredMin;
+    inRange += s.inRangeMin;
     if (s.compressorDutyPercent !== null) {
-      dutyMin += (s.compressorDutyPercent / 100) * s.coveredMin;
+      compressor += s.compressorMin;
       dutyCovered += s.coveredMin;
     }
     out.minutesAboveLimit += s.minutesAboveLimit;
@@ -304,9 +309,11 @@ export function combineSummaries(items: readonly TrendSummaryDto[], alarms: read
   }
   return {
     coveredMin: round(covered),
+    inRangeMin: round(inRange),
     timeInRangePercent: pct(inRange, covered),
     minutesAboveLimit: round(out.minutesAboveLimit),
-    compressorDutyPercent: pct(dutyMin, dutyCovered),
+    compressorDutyPercent: pct(compressor, dutyCovered),
+    compressorMin: round(compressor),
     doorOpenMin: round(out.doorOpenMin),
     defrostCount: out.defrostCount,
     excursionCount: out.excursionCount,

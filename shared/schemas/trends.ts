@@ -12,6 +12,10 @@ export type TrendsQuery = z.infer<typeof TrendsQuery>;
 export const WeeklySendBody = z.object({ siteId: z.number().int().positive().optional(), week: IsoWeek.optional() }).strict();
 export type WeeklySendBody = z.infer<typeof WeeklySendBody>;
 
+/** Query of GET /reports/weekly besides the page: only one site's reports. */
+export const WeeklyReportsQuery = z.object({ siteId: z.coerce.number().int().positive().optional() });
+export type WeeklyReportsQuery = z.infer<typeof WeeklyReportsQuery>;
+
 /** One hour of a box's week (from the 1 h rollup). */
 export interface TrendHourDto {
   ts: string;
@@ -51,12 +55,16 @@ export interface SuperheatBinDto {
 /** The week's summary figures. */
 export interface TrendSummaryDto {
   coveredMin: number;
+  /** Covered time whose 15-min mean box air was within [low limit, high limit], min (a site's % is weighted by it). */
+  inRangeMin: number;
   timeInRangePercent: number | null;
   minutesAboveLimit: number;
   /** Runs of consecutive 15-min buckets with mean box air above the high limit, and the longest one, min. */
   excursionCount: number;
   longestExcursionMin: number;
   compressorDutyPercent: number | null;
+  /** Compressor running time, min (a site's duty is weighted by it). */
+  compressorMin: number;
   doorOpenMin: number;
   defrostCount: number;
   alarmCount: number;

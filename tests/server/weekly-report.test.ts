@@ -200,4 +200,14 @@ describe('GET /api/v1/reports/weekly', () => {
     expect(mine.status).toBe(200);
     expect(mine.body.items.every((r: { recipientUserId: number }) => r.recipientUserId === s.manager.userId)).toBe(true);
   });
+
+  it('lists one site’s reports with ?siteId= (the trends page’s list), and refuses a malformed id', async () => {
+    const ofSite = await call(s.admin, 'get', `/api/v1/reports/weekly?siteId=${site.id}&pageSize=200`);
+    expect(ofSite.status).toBe(200);
+    expect(ofSite.body.total).toBeGreaterThanOrEqual(6); // W47 and W46 to two managers and the admins
+    expect(ofSite.body.items.every((r: { siteId: number }) => r.siteId === site.id)).toBe(true);
+    const none = await call(s.admin, 'get', '/api/v1/reports/weekly?siteId=99999999');
+    expect(none.body).toMatchObject({ items: [], total: 0 });
+    expectProblem(await call(s.admin, 'get', '/api/v1/reports/weekly?siteId=x'), 400, 'validation');
+  });
 });

@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import {
+  combineSummaries,
   dailyFigures,
   findings,
   isoWeekOfDay,
@@ -120,6 +121,34 @@ describe('the weekly summary of a known synthetic week', () => {
   });
 });
 
+describe('a site week combined from its boxes', () => {
+  // Two boxes of one site over the same UTC week: box A has one quarter-hour at 7 °C (above 5 °C),
+  // box B none; the compressor runs 5 of 15 min on A and 10 of 15 min on B.
+  const start = Date.UTC(2026, 10, 16);
+  const week = (hot: number | null, compressorMin: number) => Array.from({ length: 672 }, (_, i) => bucket(start + i * Q, i === hot ? 7 : 2, { compressorMs: compressorMin * MIN }));
+  const a = summarize(week(40, 5), [], [], box);
+  const b = summarize(week(null, 10), [], [], box);
+  const site = combineSummaries([a, b], []);
+
+  it('weights time in range by the summed minutes, not by the rounded box percentages', () => {
+    // box A alone: 671 / 672 = 99.851 % → 99.9 %; box B 100 %
+    expect(a.timeInRangePercent).toBe(99.9);
+    expect(b.timeInRangePercent).toBe(100);
+    // site by hand: (671 + 672) / 1,344 quarter-hours = 99.926 % → 99.9 % (the mean of the rounded
+    // box figures, (99.9 + 100) / 2 = 99.95, would round to 100 % with a box above the limit)
+    expect(site.inRangeMin).toBe(20_145);
+    expect(site.timeInRangePercent).toBe(99.9);
+    expect(site.minutesAboveLimit).toBe(15);
+    expect(site.coveredMin).toBe(20_160);
+  });
+
+  it('takes the site duty from the summed running minutes', () => {
+    // by hand: (672 × 5 + 672 × 10) min / 20,160 min = 50 %
+    expect(site.compressorMin).toBe(10_080);
+    expect(site.compressorDutyPercent).toBe(50);
+  });
+});
+
 describe('ISO week bounds in a site time zone', () => {
   const local = (ms: number, timeZone: string) =>
     new Intl.DateTimeFormat('en-GB', { timeZone, weekday: 'short', year: 'numeric', month: '2-digit', day: '2-digit', hour: '2-digit', minute: '2-digit', hourCycle: 'h23' }).format(new Date(ms));
@@ -171,11 +200,13 @@ describe('ISO week bounds in a site time zone', () => {
 describe('findings', () => {
   const baseSummary: TrendSummaryDto = {
     coveredMin: 10_080,
+    inRangeMin: 9_979.2,
     timeInRangePercent: 99,
     minutesAboveLimit: 0,
     excursionCount: 0,
     longestExcursionMin: 0,
     compressorDutyPercent: 40,
+    compressorMin: 4_032,
     doorOpenMin: 50,
     defrostCount: 28,
     alarmCount: 0,
