@@ -96,9 +96,9 @@ export function convertReading(p: TelemetryPayload, box: BoxInfo, sensors?: Sens
       if (t.value) {
         glideK = t.value.glideK;
         // The inlet sensor reads two-phase refrigerant near its bubble point; the dew point lies the glide above it.
-        saturatedSuctionC = inlet + t.value.glideK;
+        saturatedSuctionC = t.value.dewPointC;
         if (ok('suctionLineC')) {
-          superheatK = p.suctionLineC - saturatedSuctionC;
+          superheatK = t.value.superheatAgainstDewK;
           if (t.value.glideWarning) {
             flags.push({
               code: 'glide',

@@ -69,6 +69,10 @@ export interface ThermistorSuperheat {
   readonly glideWarning: boolean;
   /** Glide, K, at the pressure whose bubble point is the coil-inlet temperature: the largest overstatement. */
   readonly glideK: number;
+  /** The dew point at the inlet's pressure, °C: the inlet reading plus the glide (the inlet taken at its bubble point). */
+  readonly dewPointC: number;
+  /** Suction-line minus that dew point, K: the pressure method's figure, and the lower bound of the true superheat. */
+  readonly superheatAgainstDewK: number;
   /** Plain-words explanation when glideWarning is set, otherwise null. */
   readonly note: string | null;
 }
@@ -90,7 +94,8 @@ export function superheatByThermistorsK(input: ThermistorSuperheatInput, system:
       `sensor reads near the bubble point, so this reading can overstate superheat by up to that much ` +
       `compared with the pressure method; set targets with that in mind.`
     : null;
-  return { superheatK: input.suctionLineC - input.coilInletC, glideWarning, glideK, note };
+  const dewPointC = input.coilInletC + glideK;
+  return { superheatK: input.suctionLineC - input.coilInletC, glideWarning, glideK, dewPointC, superheatAgainstDewK: input.suctionLineC - dewPointC, note };
 }
 
 export interface SubcoolingInput {

@@ -174,6 +174,9 @@ describe('SuperheatView', () => {
     // Common practice: two-thermistor superheat = suction-line − coil-inlet temperature (30 − 20 °F).
     expect(firstNumber(testText(w, 'sh-result'))).toBeCloseTo(10, 5);
     expect(testText(w, 'sh-glide-warning')).toMatch(/overstate superheat/);
+    // CoolProp 8.0.0 HEOS::R407C.mix: at the pressure whose bubble point is 20 °F the dew point is 11.30 °F higher,
+    // so against the dew point the same readings give 10 − 11.30 = −1.3 °F, the figure the box page shows.
+    expect(firstNumber(testText(w, 'sh-against-dew'))).toBeCloseTo(-1.3, 1);
   });
 
   it('shows the engine error for an impossible suction pressure, never NaN', async () => {

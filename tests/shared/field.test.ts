@@ -184,6 +184,9 @@ describe('superheat and subcooling', () => {
     expect(blend.glideWarning).toBe(true);
     // CoolProp 8.0.0 HEOS::R407C.mix: bubble point 2 °C at 605.7 kPa abs, where the dew point is 8.08 °C: glide 6.08 K.
     expect(Math.abs(blend.glideK - 6.08)).toBeLessThanOrEqual(0.01);
+    // Against that dew point (8.08 °C, CoolProp 8.0.0 as above) the suction line at 8 °C has −0.08 K.
+    expect(Math.abs(blend.dewPointC - 8.08)).toBeLessThanOrEqual(0.01);
+    expect(Math.abs(blend.superheatAgainstDewK - -0.08)).toBeLessThanOrEqual(0.01);
     expect(blend.note).toContain('overstate');
     // At the pressure whose bubble point is the inlet reading, the pressure method gives exactly glideK less.
     const p = superheatByPressureK({

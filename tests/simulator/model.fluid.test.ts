@@ -8,7 +8,7 @@ import { Fluid } from '../../simulator/model/fluid';
 import { SeededRng } from '../../simulator/model/rng';
 
 describe('Fluid', () => {
-  it('answers bit for bit what the shared engine answers, for every refrigerant, with repeats and interleaved curves', () => {
+  it('wiring: answers bit for bit what the shared engine answers, for every refrigerant, with repeats and interleaved curves', () => {
     const rng = new SeededRng(5);
     for (const id of REFRIGERANT_IDS) {
       const info = getRefrigerant(id);
