@@ -11,7 +11,9 @@ import { DEFAULT_BROKER_LIMITS as BL } from './mqtt/limits';
 
 export const PROJECT_ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 
-dotenv.config({ path: path.join(PROJECT_ROOT, '.env'), quiet: true });
+// npm test runs on the environment scripts/test.ts gives it, never on a developer's .env (whose
+// MQTT_BROKER or MQTT_EMBEDDED_IN would otherwise change what the tests exercise).
+if (process.env.NODE_ENV !== 'test') dotenv.config({ path: path.join(PROJECT_ROOT, '.env'), quiet: true });
 
 const bool = z
   .enum(['0', '1', 'true', 'false', ''])

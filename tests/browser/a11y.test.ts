@@ -122,8 +122,9 @@ async function seriousViolations(page: Page): Promise<string[]> {
 }
 
 /**
- * Two faults axe does not see: a page heading flush against the content edge (the page lost its
- * padding), and a link in a table or card that keeps the browser's blue underline while not hovered.
+ * Faults axe does not see: a page heading flush against the content edge (the page lost its
+ * padding), a link in a table or card that keeps the browser's blue underline while not hovered,
+ * and a field showing the UI library's stock placeholder ("Please Input") instead of our words.
  */
 async function layoutFaults(page: Page): Promise<string[]> {
   await page.mouse.move(0, 0);
@@ -141,6 +142,10 @@ async function layoutFaults(page: Page): Promise<string[]> {
       if (a.matches(':focus-visible')) continue;
       if (view.getComputedStyle(a).textDecorationLine.includes('underline')) out.push(`underlined link "${(a.textContent ?? '').trim().slice(0, 40)}"`);
     }
+    const stock = Array.from(doc.querySelectorAll('main.content [placeholder^="Please "], main.content .n-base-selection-placeholder'))
+      .map((e) => ((e as unknown as { getAttribute(n: string): string | null }).getAttribute('placeholder') ?? e.textContent ?? '').trim())
+      .filter((t) => t.startsWith('Please '));
+    for (const t of new Set(stock)) out.push(`stock placeholder "${t}"`);
     return out;
   });
 }

@@ -13,7 +13,8 @@ let port: number;
 const FAILURES = 5;
 
 beforeAll(async () => {
-  srv = await startTelemetryServer({ DEMO_MODE: '1', MQTT_DEVICE_AUTH_FAILURES: String(FAILURES), MQTT_DEVICE_AUTH_LOCKOUT_S: '60' });
+  // Inline: these tests count the broker's database lookups with a spy on this process's models.
+  srv = await startTelemetryServer({ DEMO_MODE: '1', MQTT_EMBEDDED_IN: 'inline', MQTT_DEVICE_AUTH_FAILURES: String(FAILURES), MQTT_DEVICE_AUTH_LOCKOUT_S: '60' });
   url = srv.mqttUrl ?? '';
   port = Number(new URL(url).port);
 });
