@@ -131,6 +131,10 @@ export function convertReading(p: TelemetryPayload, box: BoxInfo, sensors?: Sens
       flags.push({ code: 'negative-subcooling', affects: ['subcoolingK'], message: `Negative subcooling (${fmtK(sub)}): flash gas in the liquid line, or a bad liquid-line sensor or transducer` });
     }
   }
+  // A supercritical high side has no subcooling; how close the gas-cooler outlet comes to the air
+  // entering the gas cooler (its approach) is what a CO2 technician reads instead.
+  const supercritical = flags.some((f) => f.code === 'supercritical');
+  const approachK = supercritical && p.liquidLineC !== undefined && p.condenserAirC !== undefined && ok('liquidLineC', 'condenserAirC') ? p.liquidLineC - p.condenserAirC : null;
   let pct: number | null = null;
   if (box.valveType === 'eev' && p.valveSteps !== undefined) {
     const steps = p.valveSteps;
@@ -153,6 +157,8 @@ export function convertReading(p: TelemetryPayload, box: BoxInfo, sensors?: Sens
     liquidKPaG: liquidKPaG ?? null,
     liquidLineC: p.liquidLineC ?? null,
     subcoolingK: sub,
+    condenserAirC: p.condenserAirC ?? null,
+    approachK,
     valveSteps: box.valveType === 'eev' ? (p.valveSteps ?? null) : null,
     valvePercent: pct,
     compressorOn: p.compressorOn,

@@ -11,7 +11,7 @@ import type { ReadingFlag, ReadingFlagCode, ReadingFlagTarget } from '../../shar
 import type { TelemetryPayload } from '../../shared/schemas/telemetry';
 import type { GaugeReference } from '../../shared/schemas/boxes';
 
-export const THERMISTOR_FIELDS = ['boxAirC', 'suctionLineC', 'coilInletC', 'dischargeAirC', 'liquidLineC'] as const;
+export const THERMISTOR_FIELDS = ['boxAirC', 'suctionLineC', 'coilInletC', 'dischargeAirC', 'liquidLineC', 'condenserAirC'] as const;
 export const TRANSDUCER_FIELDS = ['suctionKPaG', 'liquidKPaG'] as const;
 export type ThermistorField = (typeof THERMISTOR_FIELDS)[number];
 export type TransducerField = (typeof TRANSDUCER_FIELDS)[number];
@@ -27,6 +27,8 @@ export const PLAUSIBLE_C: Record<ThermistorField, { min: number; max: number }> 
   suctionLineC: { min: -55, max: 60 },
   coilInletC: { min: -55, max: 60 },
   dischargeAirC: { min: -50, max: 60 },
+  // Outdoor air at a condenser or gas cooler: a cold winter to a hot roof (our choice).
+  condenserAirC: { min: -45, max: 65 },
   liquidLineC: { min: -40, max: 80 },
 };
 
@@ -50,12 +52,13 @@ const LABEL: Record<SensorField, string> = {
   suctionLineC: 'Suction-line sensor',
   coilInletC: 'Coil-inlet sensor',
   dischargeAirC: 'Discharge-air sensor',
+  condenserAirC: 'Condenser-air sensor',
   liquidLineC: 'Liquid-line sensor',
   suctionKPaG: 'Suction transducer',
   liquidKPaG: 'Liquid-line transducer',
 };
 
-const WORDS: Partial<Record<ReadingFlagTarget, string>> = { saturatedSuctionC: 'saturated suction', superheatK: 'superheat', subcoolingK: 'subcooling' };
+const WORDS: Partial<Record<ReadingFlagTarget, string>> = { saturatedSuctionC: 'saturated suction', superheatK: 'superheat', subcoolingK: 'subcooling', approachK: 'gas-cooler approach' };
 
 /** Derived values computed from a sensor, by the box's saturation method. */
 export function dependentsOf(field: SensorField, method: SaturationMethod): ReadingFlagTarget[] {
@@ -67,8 +70,11 @@ export function dependentsOf(field: SensorField, method: SaturationMethod): Read
     case 'coilInletC':
       return method === 'coil-thermistor' ? ['saturatedSuctionC', 'superheatK'] : [];
     case 'liquidKPaG':
-    case 'liquidLineC':
       return ['subcoolingK'];
+    case 'liquidLineC':
+      return ['subcoolingK', 'approachK'];
+    case 'condenserAirC':
+      return ['approachK'];
     default:
       return [];
   }

@@ -47,7 +47,7 @@ interface Agg {
 
 
 const RAW_SQL =
-  'INSERT IGNORE INTO readings (box_id, ts, seq, received_at, refrigerant, box_air_c, suction_kpa_g, suction_line_c, saturated_suction_c, superheat_k, coil_inlet_c, discharge_air_c, liquid_kpa_g, liquid_line_c, subcooling_k, valve_steps, valve_percent, compressor_on, fan_on, defrost_on, door_open, quality_flags, glide_k) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)';
+  'INSERT IGNORE INTO readings (box_id, ts, seq, received_at, refrigerant, box_air_c, suction_kpa_g, suction_line_c, saturated_suction_c, superheat_k, coil_inlet_c, discharge_air_c, liquid_kpa_g, liquid_line_c, subcooling_k, valve_steps, valve_percent, compressor_on, fan_on, defrost_on, door_open, quality_flags, glide_k, condenser_air_c) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)';
 
 const rollupSql = (table: string) =>
   `INSERT INTO ${table} (box_id, bucket_start, samples, box_air_min_c, box_air_max_c, box_air_sum_c, superheat_sum_k, superheat_n, valve_sum_pct, valve_n, suction_sum_kpa_g, covered_ms, compressor_ms, defrost_ms, door_ms) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?) ON DUPLICATE KEY UPDATE samples = samples + VALUES(samples), box_air_min_c = LEAST(box_air_min_c, VALUES(box_air_min_c)), box_air_max_c = GREATEST(box_air_max_c, VALUES(box_air_max_c)), box_air_sum_c = box_air_sum_c + VALUES(box_air_sum_c), superheat_sum_k = superheat_sum_k + VALUES(superheat_sum_k), superheat_n = superheat_n + VALUES(superheat_n), valve_sum_pct = valve_sum_pct + VALUES(valve_sum_pct), valve_n = valve_n + VALUES(valve_n), suction_sum_kpa_g = suction_sum_kpa_g + VALUES(suction_sum_kpa_g), covered_ms = covered_ms + VALUES(covered_ms), compressor_ms = compressor_ms + VALUES(compressor_ms), defrost_ms = defrost_ms + VALUES(defrost_ms), door_ms = door_ms + VALUES(door_ms)`;
@@ -65,7 +65,7 @@ function rawRow(r: ConvertedReading, received: string): Array<string | number | 
   return [
     r.boxId, sqlTs(Date.parse(r.ts)), r.seq, received, r.refrigerant, d(r.boxAirC), d(r.suctionKPaG), d(r.suctionLineC), d(r.saturatedSuctionC), d(r.superheatK),
     d(r.coilInletC), d(r.dischargeAirC), d(r.liquidKPaG), d(r.liquidLineC), d(r.subcoolingK), r.valveSteps, d(r.valvePercent), b(r.compressorOn), b(r.fanOn), b(r.defrostOn), b(r.doorOpen),
-    r.flags.length ? JSON.stringify(r.flags) : null, d(r.glideK),
+    r.flags.length ? JSON.stringify(r.flags) : null, d(r.glideK), d(r.condenserAirC ?? null),
   ];
 }
 

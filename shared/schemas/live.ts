@@ -8,7 +8,8 @@ import type { AlarmDto } from './alarms';
 export const READING_FLAG_CODES = ['sensor-open', 'sensor-shorted', 'sensor-out-of-range', 'sensor-stuck', 'conversion', 'glide', 'negative-subcooling', 'supercritical'] as const;
 export type ReadingFlagCode = (typeof READING_FLAG_CODES)[number];
 /** Values of a reading a flag can stand in for (where the screen shows it). */
-export type ReadingFlagTarget = 'boxAirC' | 'suctionKPaG' | 'suctionLineC' | 'saturatedSuctionC' | 'superheatK' | 'coilInletC' | 'dischargeAirC' | 'liquidKPaG' | 'liquidLineC' | 'subcoolingK' | 'valvePercent';
+export type ReadingFlagTarget = 'boxAirC' | 'suctionKPaG' | 'suctionLineC' | 'saturatedSuctionC' | 'superheatK' | 'coilInletC' | 'dischargeAirC' | 'liquidKPaG' | 'liquidLineC' | 'subcoolingK' | 'valvePercent' | 'condenserAirC' | 'approachK';
+export const READING_FLAG_TARGETS: readonly ReadingFlagTarget[] = ['boxAirC', 'suctionKPaG', 'suctionLineC', 'saturatedSuctionC', 'superheatK', 'coilInletC', 'dischargeAirC', 'liquidKPaG', 'liquidLineC', 'subcoolingK', 'valvePercent', 'condenserAirC', 'approachK'];
 
 /** One stated reason with a reading: the sensor (telemetry field) it concerns and the values it blanks or qualifies. */
 export interface ReadingFlag {
@@ -46,6 +47,10 @@ export interface ReadingDto {
   flags?: ReadingFlag[];
   /** Glide at the coil-inlet reading, K, on the two-thermistor method (null otherwise). */
   glideK?: number | null;
+  /** Air entering the condenser or gas cooler, °C, when the controller reports it. */
+  condenserAirC?: number | null;
+  /** A supercritical high side: gas-cooler outlet minus the air entering the gas cooler, K (null otherwise). */
+  approachK?: number | null;
 }
 
 export interface FleetBoxStatus {

@@ -40,6 +40,8 @@ export const TelemetryPayload = z
     dischargeAirC: tempC.optional(),
     liquidKPaG: kPaG.optional(),
     liquidLineC: tempC.optional(),
+    /** Air entering the condenser or gas cooler (optional; gives an R-744 gas cooler's approach). */
+    condenserAirC: tempC.optional(),
     valveSteps: z.number().int().min(0).max(10_000).optional(),
     compressorOn: z.boolean(),
     fanOn: z.boolean(),

@@ -175,6 +175,16 @@ describe('box page reading quality', () => {
     expect(fieldOf(w, 'subcoolingK').find('[data-test="reading-quality"]').text()).toBe(supercritical.message);
   });
 
+  it('shows an R-744 gas cooler its approach to the air entering it, and says when no air-in reading comes', async () => {
+    const latest = makeReading({ liquidKPaG: 9000, liquidLineC: 33, subcoolingK: null, condenserAirC: 30, approachK: 3, flags: [supercritical] });
+    const w = await openDetail(makeStatus({ refrigerant: 'R-744', latest }), makeBox({ refrigerant: 'R-744' }));
+    expect(fieldOf(w, 'condenserAirC').find('dt').text()).toBe('Air into gas cooler');
+    expect(testText(w, 'detail-condenser-air')).toBe('30.0 °C');
+    expect(testText(w, 'detail-approach')).toBe('3.0 K');
+    const without = await openDetail(makeStatus({ refrigerant: 'R-744', latest: makeReading({ liquidKPaG: 9000, liquidLineC: 33, subcoolingK: null, flags: [supercritical] }) }), makeBox({ refrigerant: 'R-744' }));
+    expect(testText(without, 'detail-approach')).toBe('no air-in reading');
+  });
+
   it('keeps a blank subcooling row with its reason when the liquid-line sensor failed', async () => {
     const shorted: ReadingFlag = { code: 'sensor-shorted', sensor: 'liquidLineC', affects: ['liquidLineC', 'subcoolingK'], message: 'Liquid-line sensor shorted (reads 130.0 °C) — no subcooling' };
     const w = await openDetail(makeStatus({ latest: makeReading({ liquidKPaG: 1500, liquidLineC: 130, subcoolingK: null, flags: [shorted] }) }));

@@ -27,6 +27,20 @@ describe('an R-744 high side above the critical pressure', () => {
     expect(r.saturatedSuctionC).not.toBeNull();
     expect(Math.abs((r.saturatedSuctionC as number) - -10.63)).toBeLessThanOrEqual(0.05);
   });
+  it('gives the gas-cooler approach (outlet − air in) when the air entering the gas cooler is reported', () => {
+    // Approach = gas-cooler outlet − air entering it (common practice for a transcritical high side): 33 − 30 = 3 K.
+    const r = convertReading({ ...reading(9_000), condenserAirC: 30 }, box);
+    expect(r.approachK).toBe(3);
+    expect(r.condenserAirC).toBe(30);
+    // Without the air-in reading there is no approach; a subcritical high side has subcooling instead.
+    expect(convertReading(reading(9_000), box).approachK).toBeNull();
+    expect(convertReading({ ...reading(7_000), liquidLineC: 27, condenserAirC: 24 }, box).approachK).toBeNull();
+    // A failed air-in sensor gives none either, with its reason.
+    const failed = convertReading({ ...reading(9_000), condenserAirC: -60 }, box);
+    expect(failed.approachK).toBeNull();
+    expect(failed.flags.find((f) => f.sensor === 'condenserAirC')?.message).toMatch(/Condenser-air sensor open .*gas-cooler approach/);
+  });
+
   it('computes subcooling below the critical pressure', () => {
     // 7,000 kPa(g) + 101.325 = 7,101.3 kPa abs, saturated at 29.31 °C (CoolProp 8.0.0 HEOS::CarbonDioxide):
     // a 27 °C liquid line is 2.31 K subcooled.

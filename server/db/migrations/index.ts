@@ -8,6 +8,7 @@ import * as m0008 from './0008-reading-quality';
 import * as m0009 from './0009-visits-refrigerant-log';
 import * as m0010 from './0010-food-log';
 import * as m0011 from './0011-weekly-reports';
+import * as m0012 from './0012-condenser-air';
 
 export const MIGRATIONS = [
   { name: '0001-core', ...m0001 },
@@ -19,4 +20,5 @@ export const MIGRATIONS = [
   { name: '0009-visits-refrigerant-log', ...m0009 },
   { name: '0010-food-log', ...m0010 },
   { name: '0011-weekly-reports', ...m0011 },
+  { name: '0012-condenser-air', ...m0012 },
 ];
