@@ -112,6 +112,11 @@ const EnvSchema = z.object({
    * 2 or more needs MQTT_BROKER=mosquitto (the embedded broker speaks MQTT 3.1.1, without shared subscriptions).
    */
   INGEST_WORKERS: z.coerce.number().int().min(1).max(16).default(1),
+  /**
+   * Commit streams per ingest: a batch is split by box over this many writers that commit at the
+   * same time (server/telemetry/writer.ts CommitStreams); a box always takes the same stream.
+   */
+  INGEST_COMMIT_STREAMS: z.coerce.number().int().min(1).max(8).default(2),
   SMTP_HOST: z.string().default('127.0.0.1'),
   SMTP_PORT: z.coerce.number().int().min(0).max(65535).default(2525),
   SMTP_USER: z.string().optional(),

@@ -16,7 +16,7 @@ import { BrokerProxy } from './mqtt/brokerProxy';
 import { IngestWorkers } from './telemetry/ingestWorkers';
 import { startMosquittoAccounts } from './mqtt/mosquittoAccounts';
 import { Ingest } from './telemetry/ingest';
-import { ReadingWriter } from './telemetry/writer';
+import { CommitStreams } from './telemetry/writer';
 import { BoxCache } from './telemetry/boxCache';
 import { createTelemetryMetrics } from './telemetry/metrics';
 import { SettingsService } from './telemetry/settings';
@@ -134,7 +134,7 @@ export async function startServer(config: Config, opts: StartOptions = {}): Prom
       const port = await embedded.start();
       mqttUrl = `mqtt://${config.MQTT_HOST}:${port}`;
     }
-    const writer = new ReadingWriter(config);
+    const writer = new CommitStreams(config, config.INGEST_COMMIT_STREAMS);
     const boxes = new BoxCache(models, bus);
     ingest = new Ingest({
       url: config.MQTT_URL ?? mqttUrl ?? '',

@@ -94,6 +94,7 @@ try {
   const withController = boxRows.filter((_, i) => i % 21 !== 20);
   await models.Controller.bulkCreate(withController.map((b, i) => ({ boxId: b.id, serial: `U${String(i).padStart(5, '0')}`, secretHash, valveFullSteps: 1600, firmware: null, lastSeenAt: null, secretRotatedAt: null })));
   const creds = withController.map((_, i) => ({ serial: `U${String(i).padStart(5, '0')}`, secret }));
+  const serialOfBox = new Map(withController.map((b, i) => [b.id, `U${String(i).padStart(5, '0')}`]));
   await models.User.create({ email: 'bench-ui@bench.example.com', name: 'Bench Admin', role: 'admin', customerId: null, passwordHash: await hashSecret('bench-password-1'), inviteTokenHash: null, inviteExpiresAt: null, invitedAt: null, lastLoginAt: null, lockedUntil: null });
   results.seedMs = Math.round(performance.now() - t0);
   results.controllers = creds.length;
@@ -174,13 +175,16 @@ try {
       for (const [u] of jsUrls) gzipBytes += gzipSync(Buffer.from(await (await fetch(u)).arrayBuffer())).length;
       results.firstPageJs = { files: jsUrls.length, transferredKB: Math.round(jsUrls.reduce((n, [, t]) => n + t, 0) / 1024), decodedKB: Math.round(jsUrls.reduce((n, [, , d]) => n + d, 0) / 1024), gzipKB: Math.round(gzipBytes / 1024) };
 
-      // Search: a box's full name narrows the grid to that card (and at most two others whose serial holds
-      // the same digits, e.g. U00070 for "0007"), measured from the keystroke to the painted frame, debounce included.
+      // Search: a box's full name narrows the grid to that card and the few others whose serial holds the
+      // same digits (U00070…U00079 for "0007"): as many cards as boxes whose name or serial holds the
+      // number, measured from the keystroke to the painted frame, debounce included; -1 when it never does.
       await sleep(5000);
       const searches: number[] = [];
       for (const i of [7, BOXES - 3, Math.floor(BOXES / 2)]) {
         const name = `Bench box ${String(i).padStart(4, '0')}`;
         const id = boxRows[i]?.id ?? 0;
+        const digits = String(i).padStart(4, '0');
+        const expected = boxRows.filter((b) => `${b.name} ${serialOfBox.get(b.id) ?? ''}`.includes(digits)).length;
         const ms = Number(
           await page.evaluate(`(async () => {
             const input = document.querySelector('[data-test="fleet-search"]');
@@ -188,7 +192,7 @@ try {
             input.value = ${JSON.stringify(name)}; input.dispatchEvent(new Event('input', { bubbles: true }));
             return await new Promise((res) => { const check = () => {
               const cards = document.querySelectorAll('[data-test="box-card"]');
-              if (cards.length > 0 && cards.length <= 3 && [...cards].some((c) => c.getAttribute('data-box-id') === '${id}')) res(performance.now() - t0);
+              if (cards.length === ${expected} && [...cards].some((c) => c.getAttribute('data-box-id') === '${id}')) res(performance.now() - t0);
               else if (performance.now() - t0 > 10000) res(-1); else requestAnimationFrame(check); }; check(); });
           })()`),
         );
@@ -265,11 +269,11 @@ try {
 const w = results.window as { heapGrowthMiB: number; longTaskSharePct: number; alive: boolean } | undefined;
 const fs = results.fleetStatus as { p95Ms: number } | undefined;
 const js = results.firstPageJs as { gzipKB: number } | undefined;
-const s = results.searchMs as { max: number } | undefined;
+const s = results.searchMs as { each: number[]; max: number } | undefined;
 results.goals = {
   firstCardUnder1500Ms: Number(results.firstCardMs) < 1500,
   usableUnder1500Ms: Number(results.usableMs) < 1500,
-  searchUnder500Ms: s ? s.max >= 0 && s.max < 500 : false,
+  searchUnder500Ms: s ? s.each.every((x) => x >= 0) && s.max < 500 : false,
   heapGrowthUnder50MiB: w ? w.heapGrowthMiB < 50 : false,
   longTasksUnder10Pct: w ? w.longTaskSharePct < 10 : false,
   aliveThroughout: w ? w.alive : false,

@@ -14,7 +14,7 @@ import { ConfigAckPayload, MAX_FUTURE_SKEW_MS, MAX_TELEMETRY_BYTES, StatusPayloa
 import { convertReading, type ConvertedReading } from './convert';
 import type { BoxCache } from './boxCache';
 import type { TelemetryMetrics, RejectReason } from './metrics';
-import { isTransientError, toDto, type ReadingWriter } from './writer';
+import { isTransientError, toDto, type BatchWriter } from './writer';
 import { SensorQuality } from './quality';
 
 export interface IngestOptions {
@@ -30,7 +30,7 @@ export interface IngestOptions {
   bus: EventBus;
   metrics: TelemetryMetrics;
   logger: Logger;
-  writer: ReadingWriter;
+  writer: BatchWriter;
   boxes: BoxCache;
   /** Called for each config/ack after the batch it came in is committed. */
   onConfigAck?: (serial: string, ack: ConfigAckPayload) => Promise<void>;

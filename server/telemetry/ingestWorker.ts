@@ -15,7 +15,7 @@ import { EventBus, type EventBusMap } from '../events/bus';
 import { createTelemetryMetrics } from './metrics';
 import { Ingest } from './ingest';
 import { BoxCache } from './boxCache';
-import { ReadingWriter } from './writer';
+import { CommitStreams } from './writer';
 import type { FromIngestWorker, ToIngestWorker } from './ingestWorkers';
 
 if (!process.send) throw new Error('server/telemetry/ingestWorker.ts runs as a child of the server (INGEST_WORKERS)');
@@ -26,7 +26,7 @@ const POOL_MAX = 2;
 const COUNTS_EVERY_MS = 500;
 
 let ingest: Ingest | null = null;
-let writer: ReadingWriter | null = null;
+let writer: CommitStreams | null = null;
 let boxes: BoxCache | null = null;
 let sequelize: Sequelize | null = null;
 let stopping = false;
@@ -90,7 +90,7 @@ async function start(m: Extract<ToIngestWorker, { type: 'start' }>): Promise<voi
       rejected.set(labels.reason, (rejected.get(labels.reason) ?? 0) + (n ?? 1));
       inc(labels, n);
     }) as typeof metrics.rejected.inc;
-    writer = new ReadingWriter(m.config);
+    writer = new CommitStreams(m.config, m.config.INGEST_COMMIT_STREAMS);
     boxes = new BoxCache(models, bus);
     ingest = new Ingest({ ...m.ingest, kinds: ['telemetry'], maxAgeDays: m.config.RETENTION_RAW_DAYS, models, bus, metrics, logger, writer, boxes });
     await ingest.start();

@@ -295,3 +295,85 @@ export function toDto(r: ConvertedReading): import('../../shared/schemas/live').
   const { boxId: _b, refrigerant: _r, conversionNote: _n, ...dto } = r;
   return dto;
 }
+
+/** What the ingest writes through: one ReadingWriter, or several commit streams (CommitStreams). */
+export interface BatchWriter {
+  flush(batch: ConvertedReading[], receivedAtMs?: number): Promise<FlushResult>;
+  ping(): Promise<boolean>;
+  touchControllers(lastSeen: Map<number, number>): Promise<void>;
+  close(): Promise<void>;
+}
+
+/**
+ * Several commit streams (INGEST_COMMIT_STREAMS): a batch is split by box over N writers, each with
+ * its own connections and its own view of its boxes' latest state, and the parts commit at the same
+ * time, so one transaction's log flush no longer waits for the other's. A box always goes to the
+ * same stream, so its readings keep their order and its time-in-state is counted by one writer.
+ * The batch succeeds only when every part has committed; after a failure the ingest writes the
+ * whole batch again, and the parts already committed are recognised as stored (nothing is counted
+ * twice, the same path as a retry after a lost commit answer).
+ */
+export class CommitStreams implements BatchWriter {
+  private readonly streams: ReadingWriter[];
+  /**
+   * Readings a part committed in a batch whose other part failed. The ingest writes that batch
+   * again; those readings then come back as duplicates, but they were stored for the first time by
+   * this ingest and are still to be announced (alarms, live screens): they are answered as stored.
+   */
+  private readonly committedEarlier = new Map<string, ConvertedReading>();
+
+  constructor(config: Config, count: number) {
+    this.streams = Array.from({ length: Math.max(1, count) }, () => new ReadingWriter(config));
+  }
+
+  get count(): number {
+    return this.streams.length;
+  }
+
+  /** The stream a box's readings go to. */
+  streamOf(boxId: number): number {
+    return boxId % this.streams.length;
+  }
+
+  async flush(batch: ConvertedReading[], receivedAtMs = Date.now()): Promise<FlushResult> {
+    if (this.streams.length === 1) return (this.streams[0] as ReadingWriter).flush(batch, receivedAtMs);
+    const parts: ConvertedReading[][] = this.streams.map(() => []);
+    for (const r of batch) parts[this.streamOf(r.boxId)]?.push(r);
+    // Every part runs to its end before the batch answers, so a retry never overlaps a part still committing.
+    const settled = await Promise.allSettled(parts.map((p, i) => (p.length ? (this.streams[i] as ReadingWriter).flush(p, receivedAtMs) : Promise.resolve({ stored: [], duplicates: 0 }))));
+    const failed = settled.find((s): s is PromiseRejectedResult => s.status === 'rejected');
+    if (failed) {
+      if (this.committedEarlier.size > 100_000) this.committedEarlier.clear(); // a bound, not a case: a batch is at most a few thousand
+      for (const s of settled) if (s.status === 'fulfilled') for (const r of s.value.stored) this.committedEarlier.set(keyOf(r.boxId, Date.parse(r.ts)), r);
+      throw failed.reason;
+    }
+    const done = settled as Array<PromiseFulfilledResult<FlushResult>>;
+    const stored = done.flatMap((s) => s.value.stored);
+    let duplicates = done.reduce((n, s) => n + s.value.duplicates, 0);
+    if (this.committedEarlier.size > 0) {
+      const now = new Set(stored.map((r) => keyOf(r.boxId, Date.parse(r.ts))));
+      for (const r of batch) {
+        const k = keyOf(r.boxId, Date.parse(r.ts));
+        if (!now.has(k) && this.committedEarlier.delete(k)) {
+          stored.push(r);
+          now.add(k);
+          duplicates--;
+        }
+      }
+    }
+    return { stored, duplicates };
+  }
+
+  async ping(): Promise<boolean> {
+    const up = await Promise.all(this.streams.map((w) => w.ping()));
+    return up.every(Boolean);
+  }
+
+  touchControllers(lastSeen: Map<number, number>): Promise<void> {
+    return (this.streams[0] as ReadingWriter).touchControllers(lastSeen);
+  }
+
+  async close(): Promise<void> {
+    await Promise.all(this.streams.map((w) => w.close()));
+  }
+}
