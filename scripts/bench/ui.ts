@@ -162,9 +162,12 @@ try {
       await page.goto(`${srv.url}/`);
       await page.locator('[data-test="box-card"]').first().waitFor({ state: 'visible', timeout: 60_000 });
       const firstCardWallMs = performance.now() - tNav;
-      // Usable: the search input takes a keystroke and the page paints the next frame.
-      await page.evaluate(`(async () => { const i = document.querySelector('[data-test="fleet-search"]'); i.focus(); i.value = 'b'; i.dispatchEvent(new Event('input', { bubbles: true })); await new Promise((r) => requestAnimationFrame(() => r())); i.value = ''; i.dispatchEvent(new Event('input', { bubbles: true })); })()`);
-      results.usableMs = Math.round(performance.now() - tNav);
+      // Usable: the search input takes a keystroke and the page paints the next frame. usableMs is the
+      // page's own clock from navigation start (as firstCardMs); usableWallMs adds this script's
+      // round trips to the browser (navigation request, locator polling, evaluate).
+      const usableAt = await page.evaluate(`(async () => { const i = document.querySelector('[data-test="fleet-search"]'); i.focus(); i.value = 'b'; i.dispatchEvent(new Event('input', { bubbles: true })); await new Promise((r) => requestAnimationFrame(() => r())); const t = performance.now(); i.value = ''; i.dispatchEvent(new Event('input', { bubbles: true })); return t; })()`);
+      results.usableWallMs = Math.round(performance.now() - tNav);
+      results.usableMs = Math.round(Number(usableAt));
       results.firstCardMs = Math.round(Number(await page.evaluate('window.__bench.firstCardAt')));
       results.firstCardWallMs = Math.round(firstCardWallMs);
       const firstCardBox = await page.locator('[data-test="box-card"]').first().getAttribute('data-box-id');
