@@ -23,6 +23,7 @@ export interface IngestOptions {
   password: string;
   clientId?: string;
   batchSize?: number;
+  /** The longest an idle ingest waits to gather a batch, ms (default 50); the wait itself follows the load (batchWindow()). */
   batchWindowMs?: number;
   /** Readings older than this many days are refused (their partitions are gone). */
   maxAgeDays: number;
@@ -54,6 +55,19 @@ export function ingestSubscriptions(kinds: readonly IngestKind[], shareGroup?: s
   const out: Record<string, { qos: 1 }> = {};
   for (const k of kinds) out[`${shareGroup ? `$share/${shareGroup}/` : ''}${TOPIC_PREFIX}/+/${k}`] = { qos: 1 };
   return out;
+}
+
+/** Shortest batch window, ms: below it a batch would hardly ever hold more than one reading. */
+export const MIN_BATCH_WINDOW_MS = 2;
+
+/**
+ * How long an idle ingest waits for more readings before it commits, ms: about as long as its recent
+ * commits took, within [MIN_BATCH_WINDOW_MS, maxMs]. Readings that arrive while a commit runs form
+ * the next batch anyway, so under load the batches grow by themselves; when the load is light a
+ * short wait keeps the latency down, and a slow database (long commits) gathers more per commit.
+ */
+export function batchWindow(recentCommitMs: number, maxMs: number): number {
+  return Math.min(maxMs, Math.max(MIN_BATCH_WINDOW_MS, Math.round(recentCommitMs)));
 }
 
 type Item =
@@ -102,10 +116,13 @@ export class Ingest {
   readonly counts = { accepted: 0, duplicates: 0, rejected: 0, outages: 0 };
   private readonly batchSize: number;
   private readonly windowMs: number;
+  /** Mean duration of the recent commits, ms (exponentially weighted): sets the batch window. */
+  private commitMs: number;
 
   constructor(private readonly o: IngestOptions) {
     this.batchSize = o.batchSize ?? 1000;
     this.windowMs = o.batchWindowMs ?? 50;
+    this.commitMs = this.windowMs;
   }
 
   /** Connects and subscribes; resolves once subscribed. */
@@ -254,7 +271,7 @@ export class Ingest {
     this.pending.push(item);
     this.o.metrics.queueDepth.set(this.pending.length);
     if (this.pending.length >= this.batchSize) this.kick();
-    else if (!this.timer) this.timer = setTimeout(() => this.kick(), this.windowMs);
+    else if (!this.timer) this.timer = setTimeout(() => this.kick(), batchWindow(this.commitMs, this.windowMs));
   }
 
   private kick(): void {
@@ -284,7 +301,9 @@ export class Ingest {
       const t0 = performance.now();
       try {
         const res = await this.o.writer.flush(readings.map((i) => i.reading));
-        this.o.metrics.insertSeconds.observe((performance.now() - t0) / 1000);
+        const tookMs = performance.now() - t0;
+        this.o.metrics.insertSeconds.observe(tookMs / 1000);
+        if (readings.length > 0) this.commitMs = 0.8 * this.commitMs + 0.2 * tookMs;
         this.o.metrics.batchSize.observe(readings.length);
         await this.sideEffects(batch);
         this.removeHandled(batch);
