@@ -28,6 +28,8 @@ describe('settings changes', () => {
     stubFetch(() => problem(404, { type: 'x', title: 'Not found' }));
     // America/Chicago is UTC−6 in January (IANA tz database); the tests run in UTC.
     const w = mountView(SettingsChanges, ctx, { changes: [change], timeZone: 'America/Chicago' });
+    // Installing the router starts its first navigation (a lazily loaded page): let it finish inside the test.
+    await ctx.router.isReady();
     await flushPromises();
     const text = w.find('[data-test="settings-change"]').text();
     expect(text).toMatch(/Requested [^·]*12:05[^·]*(CST|GMT-6)/);
