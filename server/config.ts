@@ -13,7 +13,8 @@ export const PROJECT_ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.
 
 // npm test runs on the environment scripts/test.ts gives it, never on a developer's .env (whose
 // MQTT_BROKER or MQTT_EMBEDDED_IN would otherwise change what the tests exercise).
-if (process.env.NODE_ENV !== 'test') dotenv.config({ path: path.join(PROJECT_ROOT, '.env'), quiet: true });
+// RIMEHOLD_ENV_FILE names another file than the project's `.env` (tests of this rule use it).
+if (process.env.NODE_ENV !== 'test') dotenv.config({ path: process.env.RIMEHOLD_ENV_FILE ?? path.join(PROJECT_ROOT, '.env'), quiet: true });
 
 const bool = z
   .enum(['0', '1', 'true', 'false', ''])
