@@ -326,10 +326,6 @@ export class CommitStreams implements BatchWriter {
     this.streams = Array.from({ length: Math.max(1, count) }, () => new ReadingWriter(config));
   }
 
-  get count(): number {
-    return this.streams.length;
-  }
-
   /** The stream a box's readings go to. */
   streamOf(boxId: number): number {
     return boxId % this.streams.length;

@@ -8,8 +8,8 @@ import type { AlarmDto } from './alarms';
 export const READING_FLAG_CODES = ['sensor-open', 'sensor-shorted', 'sensor-out-of-range', 'sensor-stuck', 'conversion', 'glide', 'negative-subcooling', 'supercritical'] as const;
 export type ReadingFlagCode = (typeof READING_FLAG_CODES)[number];
 /** Values of a reading a flag can stand in for (where the screen shows it). */
-export type ReadingFlagTarget = 'boxAirC' | 'suctionKPaG' | 'suctionLineC' | 'saturatedSuctionC' | 'superheatK' | 'coilInletC' | 'dischargeAirC' | 'liquidKPaG' | 'liquidLineC' | 'subcoolingK' | 'valvePercent' | 'condenserAirC' | 'approachK';
-export const READING_FLAG_TARGETS: readonly ReadingFlagTarget[] = ['boxAirC', 'suctionKPaG', 'suctionLineC', 'saturatedSuctionC', 'superheatK', 'coilInletC', 'dischargeAirC', 'liquidKPaG', 'liquidLineC', 'subcoolingK', 'valvePercent', 'condenserAirC', 'approachK'];
+export const READING_FLAG_TARGETS = ['boxAirC', 'suctionKPaG', 'suctionLineC', 'saturatedSuctionC', 'superheatK', 'coilInletC', 'dischargeAirC', 'liquidKPaG', 'liquidLineC', 'subcoolingK', 'valvePercent', 'condenserAirC', 'approachK'] as const;
+export type ReadingFlagTarget = (typeof READING_FLAG_TARGETS)[number];
 
 /** One stated reason with a reading: the sensor (telemetry field) it concerns and the values it blanks or qualifies. */
 export interface ReadingFlag {

@@ -1,13 +1,13 @@
 /** Guard for server → browser WebSocket frames: anything that does not match a LiveEvent is dropped. */
 import { z } from 'zod';
-import { READING_FLAG_CODES, READING_FLAG_TARGETS, type LiveEvent, type ReadingFlagTarget } from '@shared/schemas/live';
+import { READING_FLAG_CODES, READING_FLAG_TARGETS, type LiveEvent } from '@shared/schemas/live';
 import { LiveAlarmFrame } from '@/api/alarms';
 
 const num = z.number().finite();
 const numOrNull = num.nullable();
 const isoString = z.string().min(1).refine((s) => !Number.isNaN(Date.parse(s)), 'not a time');
 
-const FlagTarget = z.string().refine((s): s is ReadingFlagTarget => (READING_FLAG_TARGETS as readonly string[]).includes(s));
+const FlagTarget = z.enum(READING_FLAG_TARGETS);
 /** A stated reason with the reading (a failed sensor, a conversion note…): kept, or the page would drop it at the next live reading. */
 const Flag = z.object({ code: z.enum(READING_FLAG_CODES), sensor: FlagTarget.optional(), affects: z.array(FlagTarget).max(20), message: z.string().max(1000) });
 
