@@ -105,8 +105,11 @@ const EnvSchema = z.object({
   MQTT_BROKER: z.enum(['embedded', 'mosquitto']).default('embedded'),
   /** mosquitto's data directory: configuration, dynamic-security file, persistence (default DATA_DIR/mosquitto). */
   MOSQUITTO_DIR: z.string().optional(),
-  /** Seconds between mosquitto's saves of its state; a mosquitto crash loses what arrived since the last one. */
-  MOSQUITTO_AUTOSAVE_S: z.coerce.number().int().min(1).max(3600).default(10),
+  /**
+   * Seconds between mosquitto's saves of its state. At most 300: a controller keeps an acknowledged
+   * reading for COMMIT_HOLD_MS (10 min) waiting for Rimehold's `committed`, longer than any save interval.
+   */
+  MOSQUITTO_AUTOSAVE_S: z.coerce.number().int().min(1).max(300).default(10),
   /**
    * Ingest processes that share the telemetry through an MQTT 5 shared subscription
    * (server/telemetry/ingestWorkers.ts). 1 (default): the server's own ingest takes everything.

@@ -1,11 +1,13 @@
 /**
  * One simulated valve controller on MQTT: owns a box model, its own MQTT client (clientId ctl-{serial}),
  * the telemetry loop, the outage buffer and replay, config/set handling, and status with a last will.
- * Readings are published one at a time at QoS 1 and leave the buffer only when PUBACKed, so order and
- * seq survive reconnects (a reading whose PUBACK was lost is sent again with the same seq).
+ * Readings are published one at a time at QoS 1. A PUBACKed reading is held until Rimehold names its
+ * seq on the controller's `committed` topic (or COMMIT_HOLD_MS has passed) and is sent again on the
+ * next connection while held, so a broker that acknowledged it and then crashed before saving it
+ * does not lose it; order and seq survive reconnects (a resend keeps its seq).
  */
 import mqtt, { type MqttClient } from 'mqtt';
-import { ConfigAckPayload, ConfigSetPayload, TelemetryPayload, topics } from '../shared/schemas/telemetry';
+import { COMMIT_HOLD_MS, CommittedPayload, ConfigAckPayload, ConfigSetPayload, TelemetryPayload, topics } from '../shared/schemas/telemetry';
 import { bufferBoundFor24h, ReadingBuffer } from './buffer';
 import type { FleetController } from './fleetFile';
 import type { SimLogger } from './log';
@@ -28,6 +30,8 @@ export interface ControllerOptions {
   /** Model integration step, simulated s (≤ 2). */
   modelStepS?: number;
   bufferCapacity?: number;
+  /** How long a PUBACKed reading is held for Rimehold's `committed` (default COMMIT_HOLD_MS; 0: not held). */
+  holdMs?: number;
   reconnectMinMs?: number;
   reconnectMaxMs?: number;
 }
@@ -39,8 +43,10 @@ export class SimController {
   readonly serial: string;
   readonly model: BoxModel;
   readonly buffer: ReadingBuffer;
-  /** Seqs the broker acknowledged, in publish order. */
+  /** Seqs the broker acknowledged, in publish order (a resend of a held reading is not counted again). */
   readonly publishedSeqs: number[] = [];
+  /** Seqs Rimehold named as committed, in arrival order. */
+  readonly confirmedSeqs: number[] = [];
   /** Seqs dropped at the buffer bound, oldest first. */
   readonly droppedSeqs: number[] = [];
   /** Config/set ids answered, with their result. */
@@ -69,12 +75,16 @@ export class SimController {
       defrostHardware: e.defrostType === 'off-cycle' ? (e.kind === 'freezer' ? 'electric' : 'none') : e.defrostType,
     });
     this.model = new BoxModel(params, opts.seed ?? seedFromString(e.serial));
-    this.buffer = new ReadingBuffer(opts.bufferCapacity ?? bufferBoundFor24h(opts.intervalS), (r, total) => {
-      this.droppedSeqs.push(r.seq);
-      if (total === 1 || total % 100 === 0) {
-        opts.logger.warn(`${this.serial}: buffer full (${this.buffer.capacity} readings): dropped oldest seq ${r.seq} (${total} dropped so far)`);
-      }
-    });
+    this.buffer = new ReadingBuffer(
+      opts.bufferCapacity ?? bufferBoundFor24h(opts.intervalS),
+      (r, total) => {
+        this.droppedSeqs.push(r.seq);
+        if (total === 1 || total % 100 === 0) {
+          opts.logger.warn(`${this.serial}: buffer full (${this.buffer.capacity} readings): dropped oldest seq ${r.seq} (${total} dropped so far)`);
+        }
+      },
+      opts.holdMs ?? COMMIT_HOLD_MS,
+    );
     this.nextSeq = opts.firstSeq;
     this.nextIntervalS = 0;
     this.reconnectDelayMs = opts.reconnectMinMs ?? 1000;
@@ -155,6 +165,7 @@ export class SimController {
     this.nextSeq += 1;
     while (this.nextIntervalS <= this.model.tS + 1e-9) this.nextIntervalS += this.opts.intervalS;
     this.lastState = { compressorOn: reading.compressorOn, fanOn: reading.fanOn, defrostOn: reading.defrostOn, doorOpen: reading.doorOpen };
+    this.buffer.release();
     this.buffer.push(parsed.data);
     void this.pump();
   }
@@ -183,7 +194,7 @@ export class SimController {
       const was = this.connected;
       this.connected = false;
       this.lost?.();
-      if (was) this.opts.logger.info(`${this.serial}: disconnected; ${this.buffer.size} readings waiting`);
+      if (was) this.opts.logger.info(`${this.serial}: disconnected; ${this.buffer.waiting} readings waiting, ${this.buffer.held} held until committed`);
       this.scheduleReconnect();
     });
   }
@@ -191,7 +202,7 @@ export class SimController {
   private async onConnect(client: MqttClient): Promise<void> {
     try {
       await client.publishAsync(topics.status(this.serial), 'online', { qos: 1, retain: true });
-      await client.subscribeAsync({ [topics.configSet(this.serial)]: { qos: 1 } });
+      await client.subscribeAsync({ [topics.configSet(this.serial)]: { qos: 1 }, [topics.committed(this.serial)]: { qos: 0 } });
     } catch (err) {
       this.opts.logger.warn(`${this.serial}: setup after connect failed: ${(err as Error).message}`);
       client.end(true);
@@ -200,8 +211,27 @@ export class SimController {
     if (this.client !== client) return;
     this.connected = true;
     this.reconnectDelayMs = this.opts.reconnectMinMs ?? 1000;
-    if (this.buffer.size > 1) this.opts.logger.info(`${this.serial}: connected; replaying ${this.buffer.size} buffered readings in order`);
+    // Held readings may be gone from a broker that crashed since it acknowledged them: send them again first.
+    const again = this.buffer.requeue();
+    if (this.buffer.size > 1) this.opts.logger.info(`${this.serial}: connected; replaying ${this.buffer.size} buffered readings in order (${again} acknowledged before but not yet committed)`);
     void this.pump();
+  }
+
+  /** Rimehold has these readings: stop holding them. A malformed message is logged and ignored. */
+  private onCommitted(payload: Buffer): void {
+    let json: unknown;
+    try {
+      json = JSON.parse(payload.toString('utf8'));
+    } catch {
+      json = undefined;
+    }
+    const parsed = CommittedPayload.safeParse(json);
+    if (!parsed.success) {
+      this.opts.logger.warn(`${this.serial}: ignored a malformed committed message`);
+      return;
+    }
+    this.buffer.confirm(parsed.data.seqs);
+    this.confirmedSeqs.push(...parsed.data.seqs);
   }
 
   /** Sends buffered readings oldest first, one at a time, each awaited to its PUBACK. */
@@ -209,7 +239,7 @@ export class SimController {
     if (this.pumping) return;
     this.pumping = true;
     try {
-      while (this.connected && this.client && this.buffer.size > 0) {
+      while (this.connected && this.client) {
         const reading = this.buffer.peek();
         if (!reading) break;
         const client = this.client;
@@ -229,6 +259,7 @@ export class SimController {
   }
 
   private async onMessage(topic: string, payload: Buffer): Promise<void> {
+    if (topic === topics.committed(this.serial)) return this.onCommitted(payload);
     if (topic !== topics.configSet(this.serial)) return;
     let json: unknown;
     try {

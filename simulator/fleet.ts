@@ -48,6 +48,8 @@ export interface FleetOptions {
   tickMs?: number;
   modelStepS?: number;
   bufferCapacity?: number;
+  /** How long a controller holds a PUBACKed reading for Rimehold's `committed` (default COMMIT_HOLD_MS; 0: not held). */
+  holdMs?: number;
   reconnectMinMs?: number;
   reconnectMaxMs?: number;
 }
@@ -57,6 +59,10 @@ export interface FleetStats {
   published: Map<string, number[]>;
   /** Seqs waiting in each controller's buffer, oldest first. */
   buffered: Map<string, number[]>;
+  /** Seqs PUBACKed but held until Rimehold names them as committed, oldest first. */
+  held: Map<string, number[]>;
+  /** Seqs Rimehold named as committed, in arrival order. */
+  confirmed: Map<string, number[]>;
   /** Seqs dropped at the buffer bound per serial. */
   dropped: Map<string, number[]>;
   /** Simulated clock now, epoch ms. */
@@ -98,6 +104,7 @@ export async function startFleet(opts: FleetOptions): Promise<Fleet> {
       logger,
       modelStepS: opts.modelStepS,
       bufferCapacity: opts.bufferCapacity,
+      holdMs: opts.holdMs,
       reconnectMinMs: opts.reconnectMinMs,
       reconnectMaxMs: opts.reconnectMaxMs,
     });
@@ -133,6 +140,8 @@ export async function startFleet(opts: FleetOptions): Promise<Fleet> {
     stats: () => ({
       published: new Map([...controllers].map(([s, c]) => [s, [...c.publishedSeqs]])),
       buffered: new Map([...controllers].map(([s, c]) => [s, c.buffer.toArray().map((r) => r.seq)])),
+      held: new Map([...controllers].map(([s, c]) => [s, c.buffer.heldSeqs()])),
+      confirmed: new Map([...controllers].map(([s, c]) => [s, [...c.confirmedSeqs]])),
       dropped: new Map([...controllers].map(([s, c]) => [s, [...c.droppedSeqs]])),
       simNowMs: clock.nowMs(),
     }),

@@ -333,7 +333,7 @@ export class EmbeddedBroker implements BrokerHandle {
     if (topic.startsWith('$SYS')) return 'publish-acl';
     if (p.kind === 'ingest') {
       const t = parseControllerTopic(topic);
-      return (t && t.kind === 'config/set') || topic === SIM_FAULT_TOPIC ? null : 'publish-acl';
+      return (t && (t.kind === 'config/set' || t.kind === 'committed')) || topic === SIM_FAULT_TOPIC ? null : 'publish-acl';
     }
     if (p.kind === 'sim') return 'publish-acl';
     const t = parseControllerTopic(topic);
@@ -353,7 +353,7 @@ export class EmbeddedBroker implements BrokerHandle {
     if (!p) return false;
     if (p.kind === 'ingest') return topic.startsWith(`${TOPIC_PREFIX}/+/`) || topic === `${TOPIC_PREFIX}/#`;
     if (p.kind === 'sim') return topic === SIM_FAULT_TOPIC;
-    return topic === `${TOPIC_PREFIX}/${p.serial}/config/set`;
+    return topic === `${TOPIC_PREFIX}/${p.serial}/config/set` || topic === `${TOPIC_PREFIX}/${p.serial}/committed`;
   }
 
   private checkStall(): void {

@@ -2,7 +2,8 @@
  * Device and service accounts on mosquitto (MQTT_BROKER=mosquitto), kept through the
  * dynamic-security plugin. Each controller gets a client (username = serial, password = its device
  * secret, client id fixed to `ctl-{serial}`) with a role of its own holding the same rules as the
- * embedded broker: publish its telemetry, status and config/ack, subscribe to its own config/set.
+ * embedded broker: publish its telemetry, status and config/ack, subscribe to its own config/set
+ * and committed.
  */
 import { existsSync, readFileSync } from 'node:fs';
 import path from 'node:path';
@@ -41,6 +42,8 @@ export function controllerAcls(serial: string): Acl[] {
     allow('publishClientSend', `${base}/config/ack`),
     allow('subscribeLiteral', `${base}/config/set`),
     allow('publishClientReceive', `${base}/config/set`),
+    allow('subscribeLiteral', `${base}/committed`),
+    allow('publishClientReceive', `${base}/committed`),
   ];
 }
 
@@ -51,17 +54,19 @@ export function ingestAcls(): Acl[] {
     ...kinds.map((k) => allow('subscribeLiteral', `${TOPIC_PREFIX}/+/${k}`)),
     ...kinds.map((k) => allow('publishClientReceive', `${TOPIC_PREFIX}/+/${k}`)),
     allow('publishClientSend', `${TOPIC_PREFIX}/+/config/set`),
+    allow('publishClientSend', `${TOPIC_PREFIX}/+/committed`),
     allow('publishClientSend', SIM_FAULT_TOPIC),
   ];
 }
 
 /**
  * An ingest worker's rules: subscribe to every controller's telemetry through the workers' shared
- * subscription (the plugin checks the whole `$share/<group>/<filter>`), and receive it.
+ * subscription (the plugin checks the whole `$share/<group>/<filter>`), receive it, and tell
+ * controllers what it has committed.
  */
 export function workerAcls(): Acl[] {
   const topic = `${TOPIC_PREFIX}/+/telemetry`;
-  return [allow('subscribeLiteral', `$share/${INGEST_SHARE_GROUP}/${topic}`), allow('publishClientReceive', topic)];
+  return [allow('subscribeLiteral', `$share/${INGEST_SHARE_GROUP}/${topic}`), allow('publishClientReceive', topic), allow('publishClientSend', `${TOPIC_PREFIX}/+/committed`)];
 }
 
 /** The demo simulator's rules: the fault channel only. */
@@ -69,7 +74,8 @@ export function simAcls(): Acl[] {
   return [allow('subscribeLiteral', SIM_FAULT_TOPIC), allow('publishClientReceive', SIM_FAULT_TOPIC)];
 }
 
-const roleOf = (serial: string) => `rimehold-ctl-${serial}`;
+const ROLE_PREFIX = 'rimehold-ctl-';
+const roleOf = (serial: string) => `${ROLE_PREFIX}${serial}`;
 
 export interface ServiceAccount {
   username: string;
@@ -134,10 +140,31 @@ export class MosquittoAccounts implements DeviceAccounts {
         if (disabled.get(c.serial)) await this.setEnabled(c.serial, false);
       }
     }
+    await this.upgradeControllerRoles();
     const missing = await this.controllersWithoutAccount();
     if (missing.length) {
       this.o.logger.warn({ count: missing.length, serials: missing.slice(0, 50) }, 'controllers without a mosquitto account cannot sign in: rotate their secret to create one');
     }
+  }
+
+  /**
+   * Adds to the roles of controllers provisioned by an earlier Rimehold the rules it has added since
+   * (the `committed` topic): one listing, then only the missing rules.
+   */
+  private async upgradeControllerRoles(): Promise<void> {
+    const data = (await this.dynsec.command('listRoles', { verbose: true, count: -1 })) as { roles?: unknown } | undefined;
+    const roles = Array.isArray(data?.roles) ? (data.roles as Array<{ rolename?: unknown; acls?: Array<{ acltype?: unknown; topic?: unknown }> }>) : [];
+    let added = 0;
+    for (const role of roles) {
+      if (typeof role.rolename !== 'string' || !role.rolename.startsWith(ROLE_PREFIX)) continue;
+      const have = new Set((role.acls ?? []).map((a) => `${String(a.acltype)} ${String(a.topic)}`));
+      for (const acl of controllerAcls(role.rolename.slice(ROLE_PREFIX.length))) {
+        if (have.has(`${acl.acltype} ${acl.topic}`)) continue;
+        await this.dynsec.command('addRoleACL', { rolename: role.rolename, ...acl });
+        added++;
+      }
+    }
+    if (added) this.o.logger.info({ added }, 'mosquitto: rules added to existing controller roles');
   }
 
   /** Serials in the controllers table that have no client in the dynamic-security file. */

@@ -10,7 +10,7 @@ import type { z } from 'zod';
 import type { Logger } from '../logger';
 import type { EventBus } from '../events/bus';
 import type { Models } from '../models';
-import { ConfigAckPayload, MAX_FUTURE_SKEW_MS, MAX_TELEMETRY_BYTES, StatusPayload, TelemetryPayload, parseControllerTopic, TOPIC_PREFIX } from '../../shared/schemas/telemetry';
+import { ConfigAckPayload, MAX_COMMITTED_SEQS, MAX_FUTURE_SKEW_MS, MAX_TELEMETRY_BYTES, StatusPayload, TelemetryPayload, parseControllerTopic, topics, TOPIC_PREFIX } from '../../shared/schemas/telemetry';
 import { convertReading, type ConvertedReading } from './convert';
 import type { BoxCache } from './boxCache';
 import type { TelemetryMetrics, RejectReason } from './metrics';
@@ -43,6 +43,11 @@ export interface IngestOptions {
    * SHARED_SESSION_EXPIRY_S after a disconnect, so a restarted worker gets its unacknowledged messages again.
    */
   shareGroup?: string;
+  /**
+   * Tell each controller, on its `committed` topic (QoS 0), the seqs this ingest has settled and
+   * acknowledged, so it can stop holding them (default true; see docs/device-protocol.md).
+   */
+  confirmCommits?: boolean;
 }
 
 export type IngestKind = 'telemetry' | 'status' | 'config/ack';
@@ -74,7 +79,8 @@ type Item =
   | { kind: 'reading'; messageId: number | undefined; gen: number; reading: ConvertedReading; controllerId: number; customerId: number; serial: string }
   | { kind: 'status'; messageId: number | undefined; gen: number; serial: string; online: boolean }
   | { kind: 'ack'; messageId: number | undefined; gen: number; serial: string; ack: ConfigAckPayload }
-  | { kind: 'none'; messageId: number | undefined; gen: number }
+  /** Nothing to store; `settled` names a reading refused for good, whose seq is confirmed all the same. */
+  | { kind: 'none'; messageId: number | undefined; gen: number; settled?: { serial: string; seq: number } }
   /** Waiting for the box lookup of a cold cache; never part of a batch until resolved. */
   | { kind: 'lookup'; messageId: number | undefined; gen: number; done: Promise<void> };
 
@@ -232,13 +238,14 @@ export class Ingest {
       return this.enqueue({ kind: 'none', messageId, gen });
     }
     const tsMs = Date.parse(r.data.ts);
+    const settled = { serial: t.serial, seq: r.data.seq };
     if (tsMs > Date.now() + MAX_FUTURE_SKEW_MS) {
       this.reject(t.serial, 'future-ts', r.data.ts);
-      return this.enqueue({ kind: 'none', messageId, gen });
+      return this.enqueue({ kind: 'none', messageId, gen, settled });
     }
     if (tsMs < Date.now() - this.o.maxAgeDays * 86_400_000) {
       this.reject(t.serial, 'too-old', r.data.ts);
-      return this.enqueue({ kind: 'none', messageId, gen });
+      return this.enqueue({ kind: 'none', messageId, gen, settled });
     }
     // The box lookup is async on a cold cache: hold the slot so acks stay in order.
     const data = r.data;
@@ -249,10 +256,10 @@ export class Ingest {
       (box) => {
         if (!box) {
           this.reject(serial, 'unknown-serial', serial);
-          Object.assign(slot, { kind: 'none' });
+          Object.assign(slot, { kind: 'none', settled });
         } else if (box.disabled) {
           this.reject(serial, 'disabled', serial);
-          Object.assign(slot, { kind: 'none' });
+          Object.assign(slot, { kind: 'none', settled });
         } else {
           const sensors = this.quality.assess(box.boxId, data, box.saturationMethod, box.gaugeReference);
           Object.assign(slot, { kind: 'reading', reading: convertReading(data, box, sensors), controllerId: box.controllerId, customerId: box.customerId, serial });
@@ -368,8 +375,23 @@ export class Ingest {
   private ackAll(batch: Item[], gen: number): void {
     const client = this.client;
     if (!client || gen !== this.gen || !client.connected) return;
+    const confirm = this.o.confirmCommits !== false;
+    const seqs = new Map<string, number[]>();
     for (const i of batch) {
-      if (i.gen === gen && i.messageId !== undefined) (client as unknown as PrivateClient)._sendPacket({ cmd: 'puback', messageId: i.messageId });
+      if (i.gen !== gen || i.messageId === undefined) continue;
+      (client as unknown as PrivateClient)._sendPacket({ cmd: 'puback', messageId: i.messageId });
+      if (!confirm) continue;
+      const done = i.kind === 'reading' ? { serial: i.serial, seq: i.reading.seq } : i.kind === 'none' ? i.settled : undefined;
+      if (!done) continue;
+      const list = seqs.get(done.serial);
+      if (list) list.push(done.seq);
+      else seqs.set(done.serial, [done.seq]);
+    }
+    // After the PUBACKs: a controller told "committed" may forget a reading the broker has let go of.
+    for (const [serial, list] of seqs) {
+      for (let k = 0; k < list.length; k += MAX_COMMITTED_SEQS) {
+        client.publish(topics.committed(serial), JSON.stringify({ seqs: list.slice(k, k + MAX_COMMITTED_SEQS) }), { qos: 0 });
+      }
     }
   }
 

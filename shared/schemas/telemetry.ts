@@ -77,12 +77,32 @@ export const ConfigAckPayload = z
   .strict();
 export type ConfigAckPayload = z.infer<typeof ConfigAckPayload>;
 
+/** Most seqs one `committed` message carries; a longer list goes out as several messages. */
+export const MAX_COMMITTED_SEQS = 500;
+/**
+ * How long a controller keeps a reading after the broker's PUBACK while waiting for its seq in a
+ * `committed` message (10 min). Longer than any broker save interval Rimehold allows
+ * (MOSQUITTO_AUTOSAVE_S ≤ 300), so a reading still unsaved by the broker is never let go unconfirmed.
+ */
+export const COMMIT_HOLD_MS = 10 * 60_000;
+
+/**
+ * Rimehold → controller, QoS 0: seqs of this controller's readings that the ingest has settled —
+ * stored, found already stored, or refused for good — and acknowledged to the broker. The
+ * controller may forget those; readings it still holds are sent again on its next connection.
+ */
+export const CommittedPayload = z
+  .object({ seqs: z.array(z.number().int().min(0).max(Number.MAX_SAFE_INTEGER)).min(1).max(MAX_COMMITTED_SEQS) })
+  .strict();
+export type CommittedPayload = z.infer<typeof CommittedPayload>;
+
 /** Topic helpers. */
 export const topics = {
   telemetry: (serial: string) => `${TOPIC_PREFIX}/${serial}/telemetry`,
   status: (serial: string) => `${TOPIC_PREFIX}/${serial}/status`,
   configSet: (serial: string) => `${TOPIC_PREFIX}/${serial}/config/set`,
   configAck: (serial: string) => `${TOPIC_PREFIX}/${serial}/config/ack`,
+  committed: (serial: string) => `${TOPIC_PREFIX}/${serial}/committed`,
 };
 
 /** Splits `rimehold/v1/ctl/{serial}/{rest}`; null when the topic is not a controller topic. */

@@ -2,7 +2,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { QueryTypes } from 'sequelize';
 import type { RunningServer } from '../../server/main';
 import { superheatByPressureK, valvePercent } from '../../shared/field';
-import { MAX_TELEMETRY_BYTES } from '../../shared/schemas/telemetry';
+import { CommittedPayload, MAX_TELEMETRY_BYTES, topics } from '../../shared/schemas/telemetry';
 import { connectController, metricValue, provisionBox, publishTelemetry, reading, startTelemetryServer, storedRows, waitFor } from './helpers/telemetry';
 
 let srv: RunningServer;
@@ -163,14 +163,43 @@ describe('broker sign-in and ACL', () => {
     expect(await storedRows(srv, b.box.id)).toHaveLength(0);
   });
 
-  it('lets a controller subscribe only to its own config/set', async () => {
+  it('lets a controller subscribe only to its own config/set and committed', async () => {
     const a = await provisionBox(srv);
     const b = await provisionBox(srv);
     const ca = await connectController(url, a.serial, a.secret);
     const own = await ca.subscribeAsync(`rimehold/v1/ctl/${a.serial}/config/set`, { qos: 1 });
     expect(own[0]?.qos).toBe(1);
+    expect((await ca.subscribeAsync(topics.committed(a.serial), { qos: 0 }))[0]?.qos).toBe(0);
     await expect(ca.subscribeAsync(`rimehold/v1/ctl/${b.serial}/config/set`, { qos: 1 })).rejects.toThrow();
-    await ca.endAsync();
+    const again = await connectController(url, a.serial, a.secret);
+    await expect(again.subscribeAsync(topics.committed(b.serial), { qos: 0 })).rejects.toThrow();
+    await again.endAsync();
+    await ca.endAsync().catch(() => undefined);
+  });
+
+  it("names each settled reading's seq on the controller's committed topic once it is stored, including a duplicate and a refused one", async () => {
+    const p = await provisionBox(srv);
+    const c = await connectController(url, p.serial, p.secret);
+    const got: number[][] = [];
+    c.on('message', (topic, payload) => {
+      if (topic === topics.committed(p.serial)) got.push(CommittedPayload.parse(JSON.parse(payload.toString())).seqs);
+    });
+    await c.subscribeAsync(topics.committed(p.serial), { qos: 0 });
+    const first = reading();
+    await publishTelemetry(c, p.serial, first);
+    const [seqs] = await waitFor(() => (got.length ? got : null));
+    expect(seqs).toEqual([first.seq]);
+    // The row was committed before the confirmation went out.
+    expect((await storedRows(srv, p.box.id)).map((r) => Number(r.seq))).toEqual([first.seq]);
+    await publishTelemetry(c, p.serial, first); // a resend after a reconnect
+    const future = reading({ ts: new Date(Date.now() + 3_600_000).toISOString() }); // refused for good
+    await publishTelemetry(c, p.serial, future);
+    await publishTelemetry(c, p.serial, '{"seq": 5, "ts": "nonsense"}'); // no trustworthy seq: not named
+    await waitFor(() => got.flat().length >= 3);
+    await new Promise((r) => setTimeout(r, 200));
+    expect(got.flat().sort((x, y) => x - y)).toEqual([first.seq, first.seq, future.seq].sort((x, y) => x - y));
+    expect((await storedRows(srv, p.box.id)).length).toBe(1);
+    await c.endAsync();
   });
 
   it('marks a controller online from its retained status and offline from its last will', async () => {
