@@ -7,7 +7,7 @@
  * does not lose it; order and seq survive reconnects (a resend keeps its seq).
  */
 import mqtt, { type MqttClient } from 'mqtt';
-import { COMMIT_HOLD_MS, CommittedPayload, ConfigAckPayload, ConfigSetPayload, TelemetryPayload, topics } from '../shared/schemas/telemetry';
+import { COMMIT_HOLD_MS, CommittedPayload, ConfigAckPayload, ConfigSetPayload, INGEST_READY_TOPIC, TelemetryPayload, topics } from '../shared/schemas/telemetry';
 import { bufferBoundFor24h, ReadingBuffer } from './buffer';
 import type { FleetController } from './fleetFile';
 import type { SimLogger } from './log';
@@ -202,7 +202,7 @@ export class SimController {
   private async onConnect(client: MqttClient): Promise<void> {
     try {
       await client.publishAsync(topics.status(this.serial), 'online', { qos: 1, retain: true });
-      await client.subscribeAsync({ [topics.configSet(this.serial)]: { qos: 1 }, [topics.committed(this.serial)]: { qos: 0 } });
+      await client.subscribeAsync({ [topics.configSet(this.serial)]: { qos: 1 }, [topics.committed(this.serial)]: { qos: 0 }, [INGEST_READY_TOPIC]: { qos: 0 } });
     } catch (err) {
       this.opts.logger.warn(`${this.serial}: setup after connect failed: ${(err as Error).message}`);
       client.end(true);
@@ -260,6 +260,13 @@ export class SimController {
 
   private async onMessage(topic: string, payload: Buffer): Promise<void> {
     if (topic === topics.committed(this.serial)) return this.onCommitted(payload);
+    if (topic === INGEST_READY_TOPIC) {
+      // An ingest subscribed afresh: what was sent since the broker came back may have found no one.
+      const again = this.buffer.requeue();
+      if (again > 0) this.opts.logger.info(`${this.serial}: ingest ready: sending ${again} unconfirmed readings again`);
+      void this.pump();
+      return;
+    }
     if (topic !== topics.configSet(this.serial)) return;
     let json: unknown;
     try {

@@ -16,7 +16,7 @@ import { JournalPersistence } from './journalPersistence';
 import type { Logger } from '../logger';
 import type { Models } from '../models';
 import type { EventBus } from '../events/bus';
-import { parseControllerTopic, TOPIC_PREFIX } from '../../shared/schemas/telemetry';
+import { INGEST_READY_TOPIC, parseControllerTopic, TOPIC_PREFIX } from '../../shared/schemas/telemetry';
 import { verifyDeviceSecret } from '../controllers/secrets';
 import { DEFAULT_BROKER_LIMITS, PacketGate, SignInThrottle, type BrokerLimits } from './limits';
 
@@ -333,7 +333,7 @@ export class EmbeddedBroker implements BrokerHandle {
     if (topic.startsWith('$SYS')) return 'publish-acl';
     if (p.kind === 'ingest') {
       const t = parseControllerTopic(topic);
-      return (t && (t.kind === 'config/set' || t.kind === 'committed')) || topic === SIM_FAULT_TOPIC ? null : 'publish-acl';
+      return (t && (t.kind === 'config/set' || t.kind === 'committed')) || topic === SIM_FAULT_TOPIC || topic === INGEST_READY_TOPIC ? null : 'publish-acl';
     }
     if (p.kind === 'sim') return 'publish-acl';
     const t = parseControllerTopic(topic);
@@ -353,7 +353,7 @@ export class EmbeddedBroker implements BrokerHandle {
     if (!p) return false;
     if (p.kind === 'ingest') return topic.startsWith(`${TOPIC_PREFIX}/+/`) || topic === `${TOPIC_PREFIX}/#`;
     if (p.kind === 'sim') return topic === SIM_FAULT_TOPIC;
-    return topic === `${TOPIC_PREFIX}/${p.serial}/config/set` || topic === `${TOPIC_PREFIX}/${p.serial}/committed`;
+    return topic === `${TOPIC_PREFIX}/${p.serial}/config/set` || topic === `${TOPIC_PREFIX}/${p.serial}/committed` || topic === INGEST_READY_TOPIC;
   }
 
   private checkStall(): void {

@@ -12,7 +12,7 @@ import type { Config } from '../config';
 import type { EventBus, EventBusMap } from '../events/bus';
 import type { Logger } from '../logger';
 import type { Models } from '../models';
-import { TOPIC_PREFIX } from '../../shared/schemas/telemetry';
+import { INGEST_READY_TOPIC, TOPIC_PREFIX } from '../../shared/schemas/telemetry';
 import { DynsecClient, DynsecError } from './dynsec';
 import { INGEST_SHARE_GROUP, workerAccount } from '../telemetry/ingestWorkers';
 import { DYNSEC_ADMIN_USER, readAdminSecret } from './mosquittoFiles';
@@ -44,6 +44,8 @@ export function controllerAcls(serial: string): Acl[] {
     allow('publishClientReceive', `${base}/config/set`),
     allow('subscribeLiteral', `${base}/committed`),
     allow('publishClientReceive', `${base}/committed`),
+    allow('subscribeLiteral', INGEST_READY_TOPIC),
+    allow('publishClientReceive', INGEST_READY_TOPIC),
   ];
 }
 
@@ -55,6 +57,7 @@ export function ingestAcls(): Acl[] {
     ...kinds.map((k) => allow('publishClientReceive', `${TOPIC_PREFIX}/+/${k}`)),
     allow('publishClientSend', `${TOPIC_PREFIX}/+/config/set`),
     allow('publishClientSend', `${TOPIC_PREFIX}/+/committed`),
+    allow('publishClientSend', INGEST_READY_TOPIC),
     allow('publishClientSend', SIM_FAULT_TOPIC),
   ];
 }
@@ -66,7 +69,7 @@ export function ingestAcls(): Acl[] {
  */
 export function workerAcls(): Acl[] {
   const topic = `${TOPIC_PREFIX}/+/telemetry`;
-  return [allow('subscribeLiteral', `$share/${INGEST_SHARE_GROUP}/${topic}`), allow('publishClientReceive', topic), allow('publishClientSend', `${TOPIC_PREFIX}/+/committed`)];
+  return [allow('subscribeLiteral', `$share/${INGEST_SHARE_GROUP}/${topic}`), allow('publishClientReceive', topic), allow('publishClientSend', `${TOPIC_PREFIX}/+/committed`), allow('publishClientSend', INGEST_READY_TOPIC)];
 }
 
 /** The demo simulator's rules: the fault channel only. */

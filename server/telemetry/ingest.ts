@@ -10,7 +10,7 @@ import type { z } from 'zod';
 import type { Logger } from '../logger';
 import type { EventBus } from '../events/bus';
 import type { Models } from '../models';
-import { ConfigAckPayload, MAX_COMMITTED_SEQS, MAX_FUTURE_SKEW_MS, MAX_TELEMETRY_BYTES, StatusPayload, TelemetryPayload, parseControllerTopic, topics, TOPIC_PREFIX } from '../../shared/schemas/telemetry';
+import { ConfigAckPayload, INGEST_READY_TOPIC, MAX_COMMITTED_SEQS, MAX_FUTURE_SKEW_MS, MAX_TELEMETRY_BYTES, StatusPayload, TelemetryPayload, parseControllerTopic, topics, TOPIC_PREFIX } from '../../shared/schemas/telemetry';
 import { convertReading, type ConvertedReading } from './convert';
 import type { BoxCache } from './boxCache';
 import type { TelemetryMetrics, RejectReason } from './metrics';
@@ -165,7 +165,12 @@ export class Ingest {
       this.gen++;
       // mosquitto 2.0 restores a session from its persistence file but not the session's shared
       // subscriptions: a shared-group ingest subscribes again on every reconnect (idempotent).
-      if (!first && o.shareGroup) client.subscribeAsync(ingestSubscriptions(o.kinds ?? INGEST_KINDS, o.shareGroup)).catch((err: Error) => o.logger.error({ err: err.message }, 'ingest resubscribe failed'));
+      if (!first && o.shareGroup) {
+        client
+          .subscribeAsync(ingestSubscriptions(o.kinds ?? INGEST_KINDS, o.shareGroup))
+          .then(() => this.announceReady(client))
+          .catch((err: Error) => o.logger.error({ err: err.message }, 'ingest resubscribe failed'));
+      }
       first = false;
     });
     client.handleMessage = (packet, callback) => {
@@ -186,10 +191,22 @@ export class Ingest {
           o.logger.info('ingest resumed its persistent session');
           if (!o.shareGroup) return resolve();
         }
-        client.subscribeAsync(subs).then(() => resolve(), reject);
+        client.subscribeAsync(subs).then(() => {
+          this.announceReady(client);
+          resolve();
+        }, reject);
       });
       client.once('error', reject);
     });
+  }
+
+  /**
+   * Subscribed afresh: readings sent since the broker came back may have found no subscriber and
+   * been acknowledged all the same (mosquitto). Controllers holding unconfirmed readings send them again.
+   */
+  private announceReady(client: MqttClient): void {
+    if (this.o.confirmCommits === false || !client.connected) return;
+    client.publish(INGEST_READY_TOPIC, '', { qos: 0 });
   }
 
   private reject(serial: string, reason: RejectReason, detail: string): void {

@@ -96,6 +96,13 @@ export const CommittedPayload = z
   .strict();
 export type CommittedPayload = z.infer<typeof CommittedPayload>;
 
+/**
+ * Rimehold → every controller, QoS 0, empty payload: an ingest has just subscribed afresh (its
+ * session was gone, or a shared-subscription worker subscribed again), so a reading sent since the
+ * broker came back may have found no subscriber. A controller sends its held readings again.
+ */
+export const INGEST_READY_TOPIC = 'rimehold/v1/ingest/ready';
+
 /** Topic helpers. */
 export const topics = {
   telemetry: (serial: string) => `${TOPIC_PREFIX}/${serial}/telemetry`,

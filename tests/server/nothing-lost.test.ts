@@ -8,7 +8,7 @@ import type { RunningServer } from '../../server/main';
 import { MariaInstance } from '../../scripts/lib/mariadb';
 import { startFleet, type Fleet } from '../../simulator/fleet';
 import type { FleetController } from '../../simulator/fleetFile';
-import { provisionBox, startTelemetryServer, waitFor } from './helpers/telemetry';
+import { fleetEntry, provisionBox, startTelemetryServer, waitFor } from './helpers/telemetry';
 
 const DB_OUTAGE_MS = Number(process.env.TEST_DB_OUTAGE_MS ?? 30_000);
 const quiet = { info: () => {}, warn: () => {}, error: () => {} };
@@ -53,25 +53,7 @@ describe('nothing is lost', () => {
         superheatTargetK: 3.3,
       });
       boxes.set(p.serial, p.box.id);
-      controllers.push({
-        serial: p.serial,
-        secret: p.secret,
-        boxId: p.box.id,
-        kind: s.kind,
-        valveType: s.valveType ?? 'eev',
-        refrigerant: s.refrigerant ?? 'R-448A',
-        setpointC: p.box.setpointC,
-        differentialK: p.box.differentialK,
-        superheatTargetK: p.box.superheatTargetK,
-        valveFullSteps: 1600,
-        elevationM: 0,
-        defrostType: p.box.defrostType,
-        defrostIntervalH: p.box.defrostIntervalH,
-        defrostMaxMin: p.box.defrostMaxMin,
-        defrostTerminationC: p.box.defrostTerminationC,
-        dripMin: p.box.dripMin,
-        fanDelayMin: p.box.fanDelayMin,
-      });
+      controllers.push(fleetEntry(p.box, p.serial, p.secret));
     }
     // Simulated time runs 60x from two hours ago: a reading every 10 simulated s is 6 per real s per controller.
     fleet = await startFleet({ controllers, url: srv.mqttUrl ?? '', speed: 60, startAgoS: 7200, intervalS: 10, firstSeq: 0, faultChannel: false, reconnectMinMs: 100, reconnectMaxMs: 1000, logger: quiet });
