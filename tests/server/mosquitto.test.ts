@@ -14,8 +14,8 @@ import { DYNSEC_RESPONSE_TOPIC, DYNSEC_TOPIC, DynsecClient, DynsecError } from '
 import type { RunningServer } from '../../server/main';
 import { findMosquitto, MosquittoInstance } from '../../scripts/lib/mosquitto';
 import { MosquittoAccounts } from '../../server/mqtt/mosquittoAccounts';
-import { readAdminSecret } from '../../server/mqtt/mosquittoFiles';
-import { topics } from '../../shared/schemas/telemetry';
+import { DYNSEC_ADMIN_USER, readAdminSecret } from '../../server/mqtt/mosquittoFiles';
+import { CommittedPayload, INGEST_READY_TOPIC, topics } from '../../shared/schemas/telemetry';
 import { loadConfig } from '../../server/config';
 import { factories, startTestServer } from './helpers/app';
 import { call, expectStatus, signInRoles, type Session } from './helpers/roles';
@@ -126,6 +126,9 @@ describe('MQTT_BROKER', () => {
     expect(loadConfig({ MQTT_BROKER: 'mosquitto' }).MQTT_BROKER).toBe('mosquitto');
     expect(() => loadConfig({ MQTT_BROKER: 'rabbitmq' })).toThrow(/MQTT_BROKER/);
     expect(() => loadConfig({ MOSQUITTO_AUTOSAVE_S: '0' })).toThrow(/MOSQUITTO_AUTOSAVE_S/);
+    // A controller holds an acknowledged reading for 10 min: a save interval may not be longer than that hold.
+    expect(() => loadConfig({ MOSQUITTO_AUTOSAVE_S: '301' })).toThrow(/MOSQUITTO_AUTOSAVE_S/);
+    expect(loadConfig({ MOSQUITTO_AUTOSAVE_S: '300' }).MOSQUITTO_AUTOSAVE_S).toBe(300);
   });
 
   it('refuses MQTT_URL together with MQTT_BROKER=mosquitto', () => {
@@ -205,6 +208,48 @@ describe.skipIf(MISSING)('MQTT_BROKER=mosquitto', () => {
     await srv.ctx.publish?.(topics.configSet(a.serial), JSON.stringify({ id: 'probe-1', setpointC: 3 }));
     expect(JSON.parse(await got)).toEqual({ id: 'probe-1', setpointC: 3 });
     await c.endAsync();
+  });
+
+  it('lets a controller hear its own committed seqs and the ingest-ready call, and no other controller’s', async () => {
+    const a = await provisioned();
+    const b = await provisioned();
+    const c = await connectController(url, a.serial, a.secret);
+    await expect(c.subscribeAsync({ [topics.committed(b.serial)]: { qos: 0 } })).rejects.toThrow();
+    await expect(c.subscribeAsync({ 'rimehold/v1/ctl/+/committed': { qos: 0 } })).rejects.toThrow();
+    const granted = await c.subscribeAsync({ [topics.committed(a.serial)]: { qos: 0 }, [INGEST_READY_TOPIC]: { qos: 0 } });
+    expect(granted.map((g) => g.qos)).toEqual([0, 0]);
+    const got = new Promise<number[]>((resolve) => c.on('message', (t, payload) => t === topics.committed(a.serial) && resolve(CommittedPayload.parse(JSON.parse(payload.toString())).seqs)));
+    const r = reading();
+    await publishTelemetry(c, a.serial, r);
+    expect(await got).toEqual([r.seq]);
+    await c.endAsync();
+  });
+
+  it('adds the committed rules to a controller role made before they existed, at the next start', async () => {
+    const p = await provisioned();
+    const dynsec = new DynsecClient({ url, username: DYNSEC_ADMIN_USER, password: readAdminSecret(dataDir) });
+    await dynsec.start();
+    try {
+      // Arrange: the role as an earlier Rimehold made it.
+      for (const topic of [topics.committed(p.serial), INGEST_READY_TOPIC]) {
+        await dynsec.command('removeRoleACL', { rolename: `rimehold-ctl-${p.serial}`, acltype: 'subscribeLiteral', topic });
+      }
+      const old = await connectController(url, p.serial, p.secret);
+      await expect(old.subscribeAsync({ [topics.committed(p.serial)]: { qos: 0 } })).rejects.toThrow();
+      await old.endAsync(true);
+      // Act: the server's account manager starts again.
+      const cfg = srv.ctx.config;
+      const accounts = new MosquittoAccounts({ url, adminPassword: readAdminSecret(dataDir), ingest: { username: cfg.MQTT_INGEST_USER, password: cfg.MQTT_INGEST_PASSWORD, clientId: cfg.MQTT_INGEST_CLIENT_ID }, sim: null, models: srv.ctx.models, bus: srv.ctx.bus, logger: srv.ctx.logger });
+      await accounts.start();
+      await accounts.stop();
+      // Assert
+      const now = await connectController(url, p.serial, p.secret);
+      const granted = await now.subscribeAsync({ [topics.committed(p.serial)]: { qos: 0 }, [INGEST_READY_TOPIC]: { qos: 0 } });
+      expect(granted.map((g) => g.qos)).toEqual([0, 0]);
+      await now.endAsync();
+    } finally {
+      await dynsec.stop();
+    }
   });
 
   it("never publishes a last will set on another controller's status topic", async () => {
