@@ -30,6 +30,8 @@ export class ReadingBuffer {
   private queue: number[] = [];
   private head = 0;
   private heldCount = 0;
+  /** Seqs named committed while their first PUBACK was still on its way (the ingest can be that quick). */
+  private confirmedInFlight = new Set<number>();
   private lastSeq = -1;
   /** Waiting readings dropped at the bound (never acknowledged by the broker). */
   dropped = 0;
@@ -91,6 +93,7 @@ export class ReadingBuffer {
    * time, gone). Returns true for a reading's first PUBACK, false for a resend or any other seq.
    */
   ack(seq: number, nowMs = Date.now()): boolean {
+    if (this.confirmedInFlight.delete(seq)) return true;
     const first = this.peek();
     if (!first || first.seq !== seq) return false;
     const e = this.entries.get(seq) as Entry;
@@ -113,6 +116,11 @@ export class ReadingBuffer {
       if (!e) continue;
       this.entries.delete(seq);
       if (e.ackedAtMs !== null) this.heldCount--;
+      else if (!e.everAcked) {
+        // Only a reading in flight can be committed before its PUBACK: that PUBACK is still its first.
+        if (this.confirmedInFlight.size > 64) this.confirmedInFlight.clear();
+        this.confirmedInFlight.add(seq);
+      }
       n++;
     }
     return n;

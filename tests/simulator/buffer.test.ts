@@ -114,6 +114,18 @@ describe('ReadingBuffer', () => {
       expect(first).toEqual([false, false, true, true]);
     });
 
+    it('counts the PUBACK of a reading named committed while it was in flight as its first', () => {
+      const buf = new ReadingBuffer(10, undefined, 60_000);
+      buf.push(reading(1));
+      buf.push(reading(2));
+      expect(buf.peek()?.seq).toBe(1);
+      buf.confirm([1]); // the ingest was quicker than the broker's PUBACK
+      expect(buf.ack(1, 0)).toBe(true);
+      expect(buf.ack(1, 0)).toBe(false);
+      expect(buf.peek()?.seq).toBe(2);
+      expect([buf.size, buf.held]).toEqual([1, 0]);
+    });
+
     it('at the bound lets the oldest held reading go before any waiting one is dropped', () => {
       const dropped: number[] = [];
       const buf = new ReadingBuffer(3, (r) => dropped.push(r.seq), 60_000);
