@@ -201,7 +201,7 @@ try {
     });
     await sub.subscribeAsync({ 'rimehold/v1/ctl/+/telemetry': { qos: 1 } });
     let selfCpu0 = NaN;
-    const r = await runLoad(['--mode=publish', `--url=mqtt://127.0.0.1:${alonePort}`, `--creds=${JSON.stringify(creds)}`, `--seconds=${Math.min(10, SECONDS)}`, `--window=${WINDOW}`], () => (selfCpu0 = cpuSeconds(process.pid)));
+    const r = await runLoad(['--mode=publish', `--url=mqtt://127.0.0.1:${alonePort}`, `--creds=${JSON.stringify(creds)}`, `--seconds=${Math.min(10, SECONDS)}`, `--window=${WINDOW}`, '--committed=0'], () => (selfCpu0 = cpuSeconds(process.pid)));
     const total = Number(r.total);
     const deadline = performance.now() + 30_000;
     while (received < total && performance.now() < deadline) await new Promise((res) => setTimeout(res, 50));
@@ -235,7 +235,7 @@ try {
     });
     await sub.subscribeAsync({ 'rimehold/v1/ctl/+/telemetry': { qos: 1 } });
     let cpu0 = NaN;
-    const r = await runLoad(['--mode=publish', `--url=${url}`, `--creds=${JSON.stringify(creds)}`, `--seconds=${Math.min(10, SECONDS)}`, `--window=${WINDOW}`], () => (cpu0 = cpuSeconds(mosquitto?.runningPid())));
+    const r = await runLoad(['--mode=publish', `--url=${url}`, `--creds=${JSON.stringify(creds)}`, `--seconds=${Math.min(10, SECONDS)}`, `--window=${WINDOW}`, '--committed=0'], () => (cpu0 = cpuSeconds(mosquitto?.runningPid())));
     const total = Number(r.total);
     const deadline = performance.now() + 30_000;
     while (received < total && performance.now() < deadline) await new Promise((res) => setTimeout(res, 50));
@@ -317,6 +317,8 @@ try {
           storedPerS: Math.round(stored / ((lastChange - startedAt) / 1000)),
           stored,
           wsReceived: wsr.received,
+          // The `committed` messages the publishers heard while publishing (one per controller per commit).
+          committedMessages: Number(r.committedMessages ?? 0),
           latencyP50Ms: wsr.p50,
           latencyP99Ms: wsr.p99,
           // From the publishers connected until all is stored; load = the publishers (the WebSocket client is apart).

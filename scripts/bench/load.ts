@@ -19,6 +19,9 @@ async function publish(): Promise<void> {
   const window = Number(args.get('--window') ?? 8);
   /** Total messages per second across all connections; 0 = as fast as the broker acknowledges. */
   const rate = Number(args.get('--rate') ?? 0);
+  /** Subscribe each connection to its `committed` topic, as a controller does (the broker then delivers those too). */
+  const hearCommitted = args.get('--committed') !== '0';
+  let committedMessages = 0;
   const clients: MqttClient[] = [];
   for (const c of creds) {
     clients.push(
@@ -31,6 +34,11 @@ async function publish(): Promise<void> {
         clean: true,
       }),
     );
+    const client = clients[clients.length - 1] as MqttClient;
+    if (hearCommitted) {
+      client.on('message', () => void committedMessages++);
+      await client.subscribeAsync(`rimehold/v1/ctl/${c.serial}/committed`, { qos: 0 });
+    }
   }
   // The bench takes its CPU snapshots of the other processes from here: connecting is not counted.
   process.stdout.write('connected\n');
@@ -97,7 +105,7 @@ async function publish(): Promise<void> {
   const elapsed = (Date.now() - start) / 1000;
   const cpu = process.cpuUsage(cpu0);
   await Promise.all(clients.map((c) => c.endAsync()));
-  process.stdout.write(`${JSON.stringify({ published: Object.fromEntries(published), total, elapsed, startedAt: start, cpuS: (cpu.user + cpu.system) / 1e6 })}\n`);
+  process.stdout.write(`${JSON.stringify({ published: Object.fromEntries(published), total, elapsed, startedAt: start, cpuS: (cpu.user + cpu.system) / 1e6, committedMessages })}\n`);
 }
 
 async function ws(): Promise<void> {
