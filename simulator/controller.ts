@@ -24,6 +24,11 @@ export interface ControllerOptions {
   intervalS: number;
   /** Epoch ms of the model's t = 0 (the fleet clock's simulated start). */
   simStartMs: number;
+  /**
+   * Where the model's t = 0 falls in the day (its kitchen schedule: ambient, doors, deliveries), epoch
+   * ms; default simStartMs. Tests pin it so a run behaves the same whatever the hour it runs at.
+   */
+  modelStartMs?: number;
   firstSeq: number;
   logger: SimLogger;
   seed?: number;
@@ -71,7 +76,7 @@ export class SimController {
     this.serial = e.serial;
     const params = boxParams({
       ...e,
-      startEpochMs: opts.simStartMs,
+      startEpochMs: opts.modelStartMs ?? opts.simStartMs,
       defrostHardware: e.defrostType === 'off-cycle' ? (e.kind === 'freezer' ? 'electric' : 'none') : e.defrostType,
     });
     this.model = new BoxModel(params, opts.seed ?? seedFromString(e.serial));

@@ -48,6 +48,8 @@ export interface FleetOptions {
   tickMs?: number;
   modelStepS?: number;
   bufferCapacity?: number;
+  /** Where the models' t = 0 falls in the day, epoch ms (default: the sim clock's start); pins the kitchen schedule in tests. */
+  modelStartMs?: number;
   /** How long a controller holds a PUBACKed reading for Rimehold's `committed` (default COMMIT_HOLD_MS; 0: not held). */
   holdMs?: number;
   reconnectMinMs?: number;
@@ -100,6 +102,7 @@ export async function startFleet(opts: FleetOptions): Promise<Fleet> {
       url: opts.url,
       intervalS,
       simStartMs: clock.simStartMs,
+      modelStartMs: opts.modelStartMs,
       firstSeq,
       logger,
       modelStepS: opts.modelStepS,

@@ -12,6 +12,7 @@ import { hashDeviceSecret } from '../../server/controllers/secrets';
 import { startFleet, type Fleet } from '../../simulator/fleet';
 import type { FleetController } from '../../simulator/fleetFile';
 import { memoryLogger } from '../../simulator/log';
+import { START_MS } from '../simulator/helpers';
 import type { FaultName } from '../../simulator/model/faults';
 import { boxBody, factories } from './helpers/app';
 import { startTelemetryServer, storedRows, waitFor } from './helpers/telemetry';
@@ -61,6 +62,9 @@ beforeAll(async () => {
     faultChannel: false,
     logger: memoryLogger(),
     tickMs: 100,
+    // The kitchen day as in tests/shared/rules.simulator.test.ts (t = 0 at 08:00), whatever the hour
+    // this runs at: started at 00:40 UTC on the real clock's day, the low-charge box did not raise superheat-high.
+    modelStartMs: START_MS,
   });
   simStartMs = fleet.clock.simStartMs;
   // Until the simulated clock has caught up (80 min / 320 ≈ 15 s) and every reading up to then is stored.
