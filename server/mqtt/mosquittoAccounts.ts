@@ -49,6 +49,11 @@ export function controllerAcls(serial: string): Acl[] {
   ];
 }
 
+/** What every ingest may send controllers: their committed seqs and the ingest-ready call. */
+function confirmAcls(): Acl[] {
+  return [allow('publishClientSend', `${TOPIC_PREFIX}/+/committed`), allow('publishClientSend', INGEST_READY_TOPIC)];
+}
+
 /** The ingest's rules: take every controller's telemetry, status and acks; send settings and demo faults. */
 export function ingestAcls(): Acl[] {
   const kinds = ['telemetry', 'status', 'config/ack'];
@@ -56,8 +61,7 @@ export function ingestAcls(): Acl[] {
     ...kinds.map((k) => allow('subscribeLiteral', `${TOPIC_PREFIX}/+/${k}`)),
     ...kinds.map((k) => allow('publishClientReceive', `${TOPIC_PREFIX}/+/${k}`)),
     allow('publishClientSend', `${TOPIC_PREFIX}/+/config/set`),
-    allow('publishClientSend', `${TOPIC_PREFIX}/+/committed`),
-    allow('publishClientSend', INGEST_READY_TOPIC),
+    ...confirmAcls(),
     allow('publishClientSend', SIM_FAULT_TOPIC),
   ];
 }
@@ -69,7 +73,7 @@ export function ingestAcls(): Acl[] {
  */
 export function workerAcls(): Acl[] {
   const topic = `${TOPIC_PREFIX}/+/telemetry`;
-  return [allow('subscribeLiteral', `$share/${INGEST_SHARE_GROUP}/${topic}`), allow('publishClientReceive', topic), allow('publishClientSend', `${TOPIC_PREFIX}/+/committed`), allow('publishClientSend', INGEST_READY_TOPIC)];
+  return [allow('subscribeLiteral', `$share/${INGEST_SHARE_GROUP}/${topic}`), allow('publishClientReceive', topic), ...confirmAcls()];
 }
 
 /** The demo simulator's rules: the fault channel only. */

@@ -43,11 +43,6 @@ export interface IngestOptions {
    * SHARED_SESSION_EXPIRY_S after a disconnect, so a restarted worker gets its unacknowledged messages again.
    */
   shareGroup?: string;
-  /**
-   * Tell each controller, on its `committed` topic (QoS 0), the seqs this ingest has settled and
-   * acknowledged, so it can stop holding them (default true; see docs/device-protocol.md).
-   */
-  confirmCommits?: boolean;
 }
 
 export type IngestKind = 'telemetry' | 'status' | 'config/ack';
@@ -205,7 +200,7 @@ export class Ingest {
    * been acknowledged all the same (mosquitto). Controllers holding unconfirmed readings send them again.
    */
   private announceReady(client: MqttClient): void {
-    if (this.o.confirmCommits === false || !client.connected) return;
+    if (!client.connected) return;
     client.publish(INGEST_READY_TOPIC, '', { qos: 0 });
   }
 
@@ -392,12 +387,11 @@ export class Ingest {
   private ackAll(batch: Item[], gen: number): void {
     const client = this.client;
     if (!client || gen !== this.gen || !client.connected) return;
-    const confirm = this.o.confirmCommits !== false;
+    // Each controller hears on its `committed` topic (QoS 0) the seqs settled here (docs/device-protocol.md).
     const seqs = new Map<string, number[]>();
     for (const i of batch) {
       if (i.gen !== gen || i.messageId === undefined) continue;
       (client as unknown as PrivateClient)._sendPacket({ cmd: 'puback', messageId: i.messageId });
-      if (!confirm) continue;
       const done = i.kind === 'reading' ? { serial: i.serial, seq: i.reading.seq } : i.kind === 'none' ? i.settled : undefined;
       if (!done) continue;
       const list = seqs.get(done.serial);
