@@ -35,6 +35,32 @@ export const FleetController = z
   .strict();
 export type FleetController = z.infer<typeof FleetController>;
 
+/** The box settings a fleet entry copies. */
+export type FleetBoxSettings = Pick<FleetController, 'kind' | 'valveType' | 'setpointC' | 'differentialK' | 'superheatTargetK' | 'defrostType' | 'defrostIntervalH' | 'defrostMaxMin' | 'defrostTerminationC' | 'dripMin' | 'fanDelayMin'> & { id: number; refrigerant: string };
+
+/** A fleet entry for a box and its controller, checked against the fleet file's schema (throws when it does not fit). */
+export function fleetEntryFor(box: FleetBoxSettings, controller: { serial: string; secret: string; valveFullSteps: number }, elevationM: number): FleetController {
+  return FleetController.parse({
+    serial: controller.serial,
+    secret: controller.secret,
+    boxId: box.id,
+    kind: box.kind,
+    valveType: box.valveType,
+    refrigerant: box.refrigerant,
+    setpointC: box.setpointC,
+    differentialK: box.differentialK,
+    superheatTargetK: box.superheatTargetK,
+    valveFullSteps: controller.valveFullSteps,
+    elevationM,
+    defrostType: box.defrostType,
+    defrostIntervalH: box.defrostIntervalH,
+    defrostMaxMin: box.defrostMaxMin,
+    defrostTerminationC: box.defrostTerminationC,
+    dripMin: box.dripMin,
+    fanDelayMin: box.fanDelayMin,
+  });
+}
+
 export const FleetFile = z
   .object({ controllers: z.array(FleetController).max(10_000) })
   .strict()

@@ -10,6 +10,7 @@ import { hashSecret } from '../auth/passwords';
 import { hashDeviceSecret, newDeviceSecret } from '../controllers/secrets';
 import { DEFAULT_VALVE_FULL_STEPS } from '../../shared/domain';
 import { DEMO_CUSTOMERS, DEMO_USERS } from './demoData';
+import { fleetEntryFor } from '../../simulator/fleetFile';
 
 export interface SeedResult {
   created: boolean;
@@ -102,25 +103,7 @@ export async function writeFleetFile(models: Models, fleetFile: string): Promise
     if (!c.serial.startsWith('KR-')) continue;
     const secret = newDeviceSecret();
     await c.update({ secretHash: hashDeviceSecret(secret), secretRotatedAt: new Date() });
-    out.push({
-      serial: c.serial,
-      secret,
-      boxId: box.id,
-      kind: box.kind,
-      valveType: box.valveType,
-      refrigerant: box.refrigerant,
-      setpointC: box.setpointC,
-      differentialK: box.differentialK,
-      superheatTargetK: box.superheatTargetK,
-      valveFullSteps: c.valveFullSteps,
-      elevationM: box.site.elevationM,
-      defrostType: box.defrostType,
-      defrostIntervalH: box.defrostIntervalH,
-      defrostMaxMin: box.defrostMaxMin,
-      defrostTerminationC: box.defrostTerminationC,
-      dripMin: box.dripMin,
-      fanDelayMin: box.fanDelayMin,
-    });
+    out.push(fleetEntryFor(box, { serial: c.serial, secret, valveFullSteps: c.valveFullSteps }, box.site.elevationM));
   }
   mkdirSync(path.dirname(fleetFile), { recursive: true });
   writeFileSync(fleetFile, JSON.stringify({ controllers: out }, null, 2), { mode: 0o600 });

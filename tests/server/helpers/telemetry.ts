@@ -10,7 +10,7 @@ import { hashDeviceSecret, newDeviceSecret } from '../../../server/controllers/s
 import { topics, type TelemetryPayload } from '../../../shared/schemas/telemetry';
 import { factories, startTestServer } from './app';
 import type { BoxCreateBody } from '../../../shared/schemas/boxes';
-import type { FleetController } from '../../../simulator/fleetFile';
+import { fleetEntryFor, type FleetBoxSettings, type FleetController } from '../../../simulator/fleetFile';
 
 /** Starts a server with the embedded broker on a free port and its own broker store. */
 export function startTelemetryServer(overrides: Record<string, string> = {}, persistenceDir = mkdtempSync(path.join(os.tmpdir(), 'rimehold-broker-'))) {
@@ -88,29 +88,7 @@ export async function metricValue(srv: RunningServer, name: string, labels: Reco
   return m.values.filter((v) => Object.entries(labels).every(([k, val]) => v.labels[k] === val)).reduce((a, v) => a + v.value, 0);
 }
 
-/** The simulator's fleet entry for a box and its controller (serial and secret as provisioned). */
-export function fleetEntry(
-  box: Pick<BoxCreateBody, 'kind' | 'valveType' | 'refrigerant' | 'setpointC' | 'differentialK' | 'superheatTargetK' | 'defrostType' | 'defrostIntervalH' | 'defrostMaxMin' | 'defrostTerminationC' | 'dripMin' | 'fanDelayMin'> & { id: number },
-  serial: string,
-  secret: string,
-): FleetController {
-  return {
-    serial,
-    secret,
-    boxId: box.id,
-    kind: box.kind,
-    valveType: box.valveType,
-    refrigerant: box.refrigerant,
-    setpointC: box.setpointC,
-    differentialK: box.differentialK,
-    superheatTargetK: box.superheatTargetK,
-    valveFullSteps: 1600,
-    elevationM: 0,
-    defrostType: box.defrostType,
-    defrostIntervalH: box.defrostIntervalH,
-    defrostMaxMin: box.defrostMaxMin,
-    defrostTerminationC: box.defrostTerminationC,
-    dripMin: box.dripMin,
-    fanDelayMin: box.fanDelayMin,
-  };
+/** The simulator's fleet entry for a box and its controller (serial and secret as provisioned; sea level, 1,600 steps). */
+export function fleetEntry(box: FleetBoxSettings, serial: string, secret: string): FleetController {
+  return fleetEntryFor(box, { serial, secret, valveFullSteps: 1600 }, 0);
 }
