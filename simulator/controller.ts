@@ -224,12 +224,7 @@ export class SimController {
 
   /** Rimehold has these readings: stop holding them. A malformed message is logged and ignored. */
   private onCommitted(payload: Buffer): void {
-    let json: unknown;
-    try {
-      json = JSON.parse(payload.toString('utf8'));
-    } catch {
-      json = undefined;
-    }
+    const json = jsonOf(payload);
     const parsed = CommittedPayload.safeParse(json);
     if (!parsed.success) {
       this.opts.logger.warn(`${this.serial}: ignored a malformed committed message`);
@@ -273,12 +268,7 @@ export class SimController {
       return;
     }
     if (topic !== topics.configSet(this.serial)) return;
-    let json: unknown;
-    try {
-      json = JSON.parse(payload.toString('utf8'));
-    } catch {
-      json = undefined;
-    }
+    const json = jsonOf(payload);
     const parsed = ConfigSetPayload.safeParse(json);
     if (!parsed.success) {
       const id = idOf(json);
@@ -337,4 +327,13 @@ function idOf(json: unknown): string | null {
 
 function raceTimeout<T>(p: Promise<T>, ms: number): Promise<T> {
   return Promise.race([p, new Promise<T>((_, reject) => setTimeout(() => reject(new Error('timeout')), ms).unref())]);
+}
+
+/** The payload parsed as JSON, or undefined when it is not JSON. */
+function jsonOf(payload: Buffer): unknown {
+  try {
+    return JSON.parse(payload.toString('utf8'));
+  } catch {
+    return undefined;
+  }
 }
